@@ -1,0 +1,243 @@
+//! Continuous (lock-in) detector: mix, pre-decimate, n-pole low-pass.
+//!
+//! For each coil `c`: `z_c[n] = x_c[n]·e^{−jωn}` (one reference oscillator for
+//! all coils), averaged over blocks of `M` samples (a boxcar, the pre-decimation),
+//! then `n` cascaded first-order low-passes at the intermediate rate
+//! `f_i = fs/M`: `y ← y + α(u − y)`, `α = 1 − e^{−1/(f_i·τ)}`. The output
+//! `2·y` is the phasor `A·e^{jφ}` of a tone `A·cos(ωn + φ)`.
+//!
+//! Bandwidths: the low-pass alone has the one-sided noise bandwidth
+//! `B_lp = Γ(n−½)/(4√π·Γ(n)·τ)` (B_lp·τ = 1/4, 1/8, 3/32, 5/64 for n = 1…4; for
+//! one pole `B_lp = π/2·f(−3 dB) = 1/(4τ)`). Around the tone it passes noise from
+//! `f0 − f` and `f0 + f` alike, so the detection bandwidth (the same quantity as a
+//! block detector's ENBW in Hz) is `B = 2·B_lp`, and `τ` follows from the
+//! requested `B`. Either detector then gives each real component of its phasor
+//! the noise variance `2·σw²·B/fs` for white input noise of variance σw².
+//! Mixing a real tone also leaves an image at `−2f0`. `M` is chosen (f_i between
+//! 400 Hz and 4 kHz) to minimise that image at the output: the boxcar's
+//! attenuation at `2f0` times the low-pass attenuation where the image aliases
+//! after decimation ([`LockIn::image_leak`]).
+//!
+//! Real-time budget: per sample one complex rotation shared by all coils and
+//! two multiply-adds per coil (plus the same again for the noise probe);
+//! the low-pass runs once per `M` samples.
+
+use crate::complex::C32;
+use crate::detect::nco::Nco;
+use crate::detect::settings::enbw_tau_product;
+
+/// Highest intermediate rate after the boxcar, Hz.
+pub const MAX_INTERMEDIATE_RATE_HZ: f32 = 4_000.0;
+/// Lowest intermediate rate after the boxcar, Hz.
+pub const MIN_INTERMEDIATE_RATE_HZ: f32 = 400.0;
+
+/// Built lock-in coefficients.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LockIn {
+    /// Boxcar (pre-decimation) length, samples.
+    pub m: u32,
+    /// Intermediate samples per readout.
+    pub d: u32,
+    /// Number of poles, 1 to 4.
+    pub poles: u8,
+    /// Low-pass step α.
+    pub alpha: f32,
+    /// Time constant τ, s.
+    pub tau_s: f32,
+    /// Intermediate rate f_i = fs/M, Hz.
+    pub intermediate_rate_hz: f32,
+    /// Sample rate, Hz.
+    pub sample_rate_hz: f32,
+}
+
+/// Lock-in state for `N` coils: main channel and noise probe.
+#[derive(Clone, Copy, Debug)]
+pub struct LockInState<const N: usize> {
+    acc: [C32; N],
+    acc_p: [C32; N],
+    lp: [[C32; 4]; N],
+    lp_p: [[C32; 4]; N],
+    count: u32,
+    dec: u32,
+    /// Intermediate samples produced since reset.
+    pub produced: u64,
+    osc: Nco,
+    osc_p: Nco,
+}
+
+impl LockIn {
+    /// Coefficients for the tone, detection bandwidth `bandwidth_hz` (= 2·B_lp), `poles`, readout rate.
+    pub fn new(sample_rate_hz: f32, tone_hz: f32, bandwidth_hz: f32, poles: u8, readout_rate_hz: f32) -> Self {
+        let poles = poles.clamp(1, 4);
+        let tau = 2.0 * enbw_tau_product(poles) / bandwidth_hz;
+        // Choose the boxcar length M (intermediate rate f_i = fs/M between
+        // MIN_ and MAX_INTERMEDIATE_RATE_HZ) that minimises the 2f0 mixing image
+        // at the output: boxcar attenuation at 2f0 times the low-pass attenuation
+        // at the frequency the image aliases to after decimation.
+        let m_lo = libm::ceilf(sample_rate_hz / MAX_INTERMEDIATE_RATE_HZ).max(1.0) as u32;
+        let m_hi = (libm::floorf(sample_rate_hz / MIN_INTERMEDIATE_RATE_HZ) as u32).max(m_lo);
+        let mut best = (f64::INFINITY, m_lo);
+        for m in m_lo..=m_hi {
+            let trial = Self::with_m(sample_rate_hz, tau, poles, readout_rate_hz, m);
+            let leak = trial.image_leak(tone_hz);
+            if leak < best.0 * 0.999 {
+                best = (leak, m);
+            }
+        }
+        Self::with_m(sample_rate_hz, tau, poles, readout_rate_hz, best.1)
+    }
+
+    fn with_m(sample_rate_hz: f32, tau: f32, poles: u8, readout_rate_hz: f32, m: u32) -> Self {
+        let fi = sample_rate_hz / m as f32;
+        let d = libm::roundf(fi / readout_rate_hz).max(1.0) as u32;
+        let alpha = 1.0 - libm::exp(-1.0 / (fi as f64 * tau as f64)) as f32;
+        Self { m, d, poles, alpha, tau_s: tau, intermediate_rate_hz: fi, sample_rate_hz }
+    }
+
+    /// Equivalent noise bandwidth of the digital low-pass cascade alone
+    /// (one-sided, Hz), `f_i/2 · Σh²/(Σh)²`, summed from the impulse response.
+    pub fn lowpass_enbw_hz(&self) -> f32 {
+        let mut st = [0.0f64; 4];
+        let a = self.alpha as f64;
+        let (mut s1, mut s2) = (0.0f64, 0.0f64);
+        let limit = (60.0 * self.tau_s as f64 * self.intermediate_rate_hz as f64) as u64 + 64;
+        for k in 0..limit.min(5_000_000) {
+            let mut u = if k == 0 { 1.0 } else { 0.0 };
+            for p in st.iter_mut().take(self.poles as usize) {
+                *p += a * (u - *p);
+                u = *p;
+            }
+            s1 += u;
+            s2 += u * u;
+        }
+        (self.intermediate_rate_hz as f64 / 2.0 * s2 / (s1 * s1)) as f32
+    }
+
+    /// Time for the step response to reach `fraction` (e.g. 0.99), s, including the boxcar.
+    pub fn settling_s(&self, fraction: f32) -> f32 {
+        let mut st = [0.0f32; 4];
+        let limit = (200.0 * self.tau_s * self.intermediate_rate_hz) as u32 + 64;
+        for k in 0..limit.min(5_000_000) {
+            let mut u = 1.0;
+            for p in st.iter_mut().take(self.poles as usize) {
+                *p += self.alpha * (u - *p);
+                u = *p;
+            }
+            if u >= fraction {
+                return (k + 1) as f32 / self.intermediate_rate_hz;
+            }
+        }
+        f32::INFINITY
+    }
+
+    /// Group delay at DC, s: boxcar `M/2` samples plus `n·a/(1−a)` intermediate samples.
+    pub fn group_delay_s(&self) -> f32 {
+        let a = 1.0 - self.alpha;
+        let box_s = (self.m as f32 - 1.0) / 2.0 / self.sample_rate_hz;
+        box_s + self.poles as f32 * a / (1.0 - a) / self.intermediate_rate_hz
+    }
+
+    /// Relative size of the `2f0` mixing image at the output (1 = as large as the tone).
+    pub fn image_leak(&self, tone_hz: f32) -> f64 {
+        let fs = self.sample_rate_hz as f64;
+        let m = self.m as f64;
+        let f2 = 2.0 * tone_hz as f64;
+        let x = core::f64::consts::PI * f2 / fs;
+        let boxcar = libm::fabs(libm::sin(m * x) / (m * libm::sin(x)));
+        let fi = self.intermediate_rate_hz as f64;
+        let alias = f2 - fi * libm::round(f2 / fi);
+        boxcar * self.lowpass_response(alias)
+    }
+
+    /// |H| of the low-pass cascade at `f_hz` (at the intermediate rate).
+    pub fn lowpass_response(&self, f_hz: f64) -> f64 {
+        let w = 2.0 * core::f64::consts::PI * f_hz / self.intermediate_rate_hz as f64;
+        let a = 1.0 - self.alpha as f64;
+        let den = libm::sqrt(1.0 - 2.0 * a * libm::cos(w) + a * a);
+        libm::pow(self.alpha as f64 / den, self.poles as f64)
+    }
+
+    /// Normalised magnitude response at `offset_hz` from the tone (boxcar × low-pass).
+    pub fn response(&self, offset_hz: f64) -> f64 {
+        let fs = self.sample_rate_hz as f64;
+        let m = self.m as f64;
+        let x = core::f64::consts::PI * offset_hz / fs;
+        let boxcar = if libm::fabs(libm::sin(x)) < 1e-15 { 1.0 } else { libm::fabs(libm::sin(m * x) / (m * libm::sin(x))) };
+        boxcar * self.lowpass_response(offset_hz)
+    }
+
+    /// Readout interval, s.
+    pub fn readout_interval_s(&self) -> f32 {
+        (self.m * self.d) as f32 / self.sample_rate_hz
+    }
+}
+
+impl<const N: usize> LockInState<N> {
+    /// Fresh state for main tone and probe frequencies (cycles per sample).
+    pub fn new(cycles: f64, probe_cycles: f64) -> Self {
+        Self {
+            acc: [C32::ZERO; N],
+            acc_p: [C32::ZERO; N],
+            lp: [[C32::ZERO; 4]; N],
+            lp_p: [[C32::ZERO; 4]; N],
+            count: 0,
+            dec: 0,
+            produced: 0,
+            osc: Nco::new(cycles),
+            osc_p: Nco::new(probe_cycles),
+        }
+    }
+
+    /// Feed one frame (sample index `n`); returns (main, probe) phasors at readout instants.
+    #[inline]
+    pub fn step(&mut self, cfg: &LockIn, n: u64, x: &[f32; N]) -> Option<([C32; N], [C32; N])> {
+        if self.count == 0 {
+            self.osc.sync(n);
+            self.osc_p.sync(n);
+        }
+        let r = self.osc.value;
+        let rp = self.osc_p.value;
+        for c in 0..N {
+            let v = x[c];
+            self.acc[c].re += v * r.re;
+            self.acc[c].im += v * r.im;
+            self.acc_p[c].re += v * rp.re;
+            self.acc_p[c].im += v * rp.im;
+        }
+        self.osc.step();
+        self.osc_p.step();
+        self.count += 1;
+        if self.count < cfg.m {
+            return None;
+        }
+        self.count = 0;
+        let k = 2.0 / cfg.m as f32;
+        let np = cfg.poles as usize;
+        for c in 0..N {
+            let mut u = self.acc[c].scale(k);
+            let mut up = self.acc_p[c].scale(k);
+            self.acc[c] = C32::ZERO;
+            self.acc_p[c] = C32::ZERO;
+            for p in 0..np {
+                self.lp[c][p] += (u - self.lp[c][p]).scale(cfg.alpha);
+                u = self.lp[c][p];
+                self.lp_p[c][p] += (up - self.lp_p[c][p]).scale(cfg.alpha);
+                up = self.lp_p[c][p];
+            }
+        }
+        self.produced += 1;
+        self.dec += 1;
+        if self.dec < cfg.d {
+            return None;
+        }
+        self.dec = 0;
+        let mut out = [C32::ZERO; N];
+        let mut outp = [C32::ZERO; N];
+        for c in 0..N {
+            out[c] = self.lp[c][np - 1];
+            outp[c] = self.lp_p[c][np - 1];
+        }
+        Some((out, outp))
+    }
+}
