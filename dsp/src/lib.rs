@@ -17,6 +17,13 @@
 //!   over overlapping blocks or a continuous lock-in, with per-coil noise σ,
 //!   mains awareness, a frequency scan and a frequency-offset estimate.
 //!
+//! * [`field`] models the sources (point dipole, Griffiths eq. 5.89; long line
+//!   current, Biot–Savart) and the coil head (positions, axes, gains).
+//! * [`locate`] turns phasors into a signed field vector, bearing, orientation
+//!   (in line / crossed), guidance along the axis, depth estimates (gradient,
+//!   null span, known moment) with one-sigma uncertainty, and calibration.
+//! * [`receiver`] is the pipeline the firmware and the simulator both drive.
+//!
 //! Units are SI inside (Hz, s, m, T) and carried in names (`_hz`, `_s`, `_m`).
 
 #![cfg_attr(not(test), no_std)]
@@ -27,11 +34,18 @@
 pub mod complex;
 pub mod detect;
 pub mod error;
+pub mod field;
 pub mod flags;
+pub mod format;
+pub mod locate;
+pub mod receiver;
 
 pub use complex::C32;
 pub use detect::settings::{Beacon, DetectorKind, DetectorSettings};
 pub use detect::window::Window;
 pub use detect::{Detection, Detector, DetectorInfo};
 pub use error::{ConfigError, Param};
+pub use field::head::Head;
+pub use field::FieldModel;
 pub use flags::Flags;
+pub use receiver::{Readout, Receiver, ReceiverSettings};

@@ -1,0 +1,37 @@
+//! Formatting lengths for display: metres or feet and inches, into a fixed buffer.
+//!
+//! SI inside; feet and inches only here, at the edge (1 ft = 0.3048 m exactly,
+//! 12 in = 1 ft).
+
+use core::fmt::Write;
+
+/// Display units for lengths.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum LengthUnit {
+    /// Metres with two decimals.
+    Metres,
+    /// Feet and whole inches.
+    FeetInches,
+}
+
+/// Format `m` metres, e.g. `1.52 m` or `5' 0"`. Non-finite gives `--`.
+/// `assert_eq!(undertone_dsp::format::length(1.524, undertone_dsp::format::LengthUnit::FeetInches).as_str(), "5' 0\"");`
+pub fn length(m: f32, unit: LengthUnit) -> heapless::String<16> {
+    let mut s = heapless::String::new();
+    if !m.is_finite() || libm::fabsf(m) > 1e6 {
+        let _ = s.push_str("--");
+        return s;
+    }
+    match unit {
+        LengthUnit::Metres => {
+            let _ = write!(s, "{:.2} m", m);
+        }
+        LengthUnit::FeetInches => {
+            let total_in = libm::roundf(libm::fabsf(m) / 0.0254) as i32;
+            let sign = if m < 0.0 && total_in > 0 { "-" } else { "" };
+            let _ = write!(s, "{}{}' {}\"", sign, total_in / 12, total_in % 12);
+        }
+    }
+    s
+}

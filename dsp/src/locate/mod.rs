@@ -1,0 +1,7 @@
+//! Locating maths: signed field, orientation, guidance, depth, calibration.
+
+pub mod calibration;
+pub mod components;
+pub mod depth;
+pub mod guidance;
+pub mod orientation;

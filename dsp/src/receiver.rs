@@ -1,0 +1,282 @@
+//! The receiver pipeline the firmware and the simulator both drive.
+//!
+//! ADC frames → [`Detector`] (a phasor and noise σ per coil) → signed field
+//! ([`FieldVector`]) → bearing and orientation state → guidance → depth
+//! estimates with uncertainty and validity → flags and a gain request.
+//!
+//! Real-time budget: the per-sample work is the detector's (see `detect`);
+//! everything here runs once per readout (tens of times per second).
+
+use crate::complex::C32;
+use crate::detect::input::InputScale;
+use crate::detect::settings::DetectorSettings;
+use crate::detect::{Detection, Detector, DetectorInfo};
+use crate::error::ConfigError;
+use crate::field::head::Head;
+use crate::field::FieldModel;
+use crate::flags::Flags;
+use crate::locate::calibration::Calibration;
+use crate::locate::components::FieldVector;
+use crate::locate::depth::{gradient_depth, known_moment_depth, DepthEstimate, Invalid};
+use crate::locate::guidance::{guidance, Guidance};
+use crate::locate::orientation::{Hysteresis, Orientation};
+
+/// Everything the receiver is configured with.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ReceiverSettings<const N: usize> {
+    /// Detector settings.
+    pub detector: DetectorSettings,
+    /// ADC input scaling.
+    pub input: InputScale<N>,
+    /// Coil head.
+    pub head: Head<N>,
+    /// Source model for depth.
+    pub model: FieldModel,
+    /// Stored calibration.
+    pub calibration: Calibration,
+    /// Orientation hysteresis.
+    pub hysteresis: Hysteresis,
+    /// Minimum amplitude SNR (A/σ) for a depth; 10 = 20 dB.
+    pub min_snr: f32,
+    /// Largest |Bz/Bh| at which the receiver counts as over the peak.
+    pub peak_ratio_gate: f32,
+    /// Quadrature residue above which the field is flagged.
+    pub quadrature_limit: f32,
+    /// Peak input fraction of full scale above which a gain step down is requested.
+    pub gain_down_fraction: f32,
+    /// Peak input fraction below which a gain step up is requested.
+    pub gain_up_fraction: f32,
+}
+
+impl<const N: usize> ReceiverSettings<N> {
+    /// Defaults around a detector, input scale and head.
+    pub fn new(detector: DetectorSettings, input: InputScale<N>, head: Head<N>) -> Self {
+        Self {
+            detector,
+            input,
+            head,
+            model: FieldModel::Dipole,
+            calibration: Calibration::default(),
+            hysteresis: Hysteresis::default(),
+            min_snr: 10.0,
+            peak_ratio_gate: 0.10,
+            quadrature_limit: 0.25,
+            gain_down_fraction: 0.7,
+            gain_up_fraction: 0.01,
+        }
+    }
+}
+
+/// A request to change one channel's analogue gain.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct GainRequest {
+    /// Channel.
+    pub channel: u8,
+    /// True: raise the gain; false: lower it.
+    pub up: bool,
+}
+
+/// One readout of the receiver.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Readout<const N: usize> {
+    /// Time of the centre of the data used, s from the first sample.
+    pub t_s: f64,
+    /// Index of the latest sample used.
+    pub sample_index: u64,
+    /// Phasor per coil.
+    pub phasors: [C32; N],
+    /// Signed field at the head.
+    pub field: FieldVector<N>,
+    /// Horizontal field at the lower coils (linear, reading units).
+    pub strength: f32,
+    /// The same in dB (20·log10).
+    pub strength_db: f32,
+    /// Amplitude SNR of the strongest lower reading, dB.
+    pub snr_db: f32,
+    /// Bearing of the horizontal field from the handle, degrees in [−90, 90].
+    pub bearing_deg: f32,
+    /// Orientation state.
+    pub state: Orientation,
+    /// Which way to walk along the axis.
+    pub guidance: Guidance,
+    /// Gradient depth.
+    pub gradient: DepthEstimate,
+    /// Known-moment depth.
+    pub known_moment: DepthEstimate,
+    /// Tone offset from the set frequency, Hz.
+    pub freq_offset_hz: f32,
+    /// Conditions.
+    pub flags: Flags,
+    /// Gain change wanted, if any.
+    pub gain_request: Option<GainRequest>,
+}
+
+impl<const N: usize> Readout<N> {
+    /// The best valid depth: gradient, else known moment.
+    pub fn depth(&self) -> Option<DepthEstimate> {
+        [self.gradient, self.known_moment].into_iter().find(|d| d.is_valid())
+    }
+}
+
+/// The receiver.
+#[derive(Clone, Copy, Debug)]
+pub struct Receiver<const N: usize> {
+    settings: ReceiverSettings<N>,
+    detector: Detector<N>,
+    state: Orientation,
+    last_depth: Option<f32>,
+    overruns: u32,
+}
+
+impl<const N: usize> Receiver<N> {
+    /// Validate and build.
+    pub fn new(settings: ReceiverSettings<N>) -> Result<Self, ConfigError> {
+        settings.head.validate()?;
+        settings.hysteresis.validate()?;
+        let detector = Detector::new(&settings.detector, settings.input)?;
+        Ok(Self { settings, detector, state: Orientation::Unknown, last_depth: None, overruns: 0 })
+    }
+
+    /// Settings in force.
+    pub fn settings(&self) -> &ReceiverSettings<N> {
+        &self.settings
+    }
+
+    /// Detector figures.
+    pub fn detector_info(&self) -> &DetectorInfo {
+        self.detector.info()
+    }
+
+    /// The detector (for mains reports and responses).
+    pub fn detector(&self) -> &Detector<N> {
+        &self.detector
+    }
+
+    /// Replace the calibration.
+    pub fn set_calibration(&mut self, cal: Calibration) {
+        self.settings.calibration = cal;
+    }
+
+    /// Record `n` frames lost before they reached the receiver; flagged on the next readout.
+    pub fn note_overrun(&mut self, n: u32) {
+        self.overruns = self.overruns.saturating_add(n);
+    }
+
+    /// The analogue gain of `channel` was multiplied by `ratio` (from the next frame on):
+    /// rescale so readouts continue without a step.
+    pub fn apply_gain_change(&mut self, channel: usize, ratio: f32) -> Result<(), ConfigError> {
+        let old = self.detector.input().scale.get(channel).copied().unwrap_or(1.0);
+        self.detector.set_scale(channel, old / ratio)?;
+        self.settings.input.scale[channel] = old / ratio;
+        Ok(())
+    }
+
+    /// Feed a frame of ADC codes.
+    pub fn push_codes(&mut self, codes: &[i32; N]) -> Option<Readout<N>> {
+        let d = self.detector.push_codes(codes)?;
+        Some(self.locate(&d))
+    }
+
+    /// Feed a frame of f32 samples.
+    pub fn push(&mut self, frame: &[f32; N]) -> Option<Readout<N>> {
+        let d = self.detector.push(frame)?;
+        Some(self.locate(&d))
+    }
+
+    /// Turn one detection into a readout.
+    pub fn locate(&mut self, d: &Detection<N>) -> Readout<N> {
+        let s = &self.settings;
+        let head = &s.head;
+        let mut field = FieldVector::from_phasors(head, &d.phasors, &d.noise_sigma);
+        // Calibrated upper along-coil gain.
+        if let Some(u) = head.roles.upper[0] {
+            let cu = s.calibration.upper_gain;
+            field.signed[u as usize] *= cu;
+            field.sigma[u as usize] *= cu;
+            field.upper[0] *= cu;
+        }
+        let lo = head.roles.lower;
+        let sig_lo = field.sigma_of(lo[0]).max(1e-30);
+        let snr = field.horizontal / sig_lo;
+        let snr_db = 20.0 * libm::log10f(snr.max(1e-6));
+        let have_field = snr >= 3.0;
+        self.state = s.hysteresis.next(self.state, field.bearing_rad.to_degrees(), have_field);
+        let ratio = field.vertical_ratio();
+        let over_peak = libm::fabsf(ratio) <= s.peak_ratio_gate;
+        let gate = |est: DepthEstimate| -> DepthEstimate {
+            if !have_field || snr < s.min_snr {
+                DepthEstimate::none(Invalid::LowSnr)
+            } else if self.state != Orientation::InLine {
+                DepthEstimate::none(Invalid::NotInLine)
+            } else if !over_peak {
+                DepthEstimate::none(Invalid::NotOverPeak)
+            } else {
+                est
+            }
+        };
+        let gradient = match (head.spacing_m(), head.roles.upper[0]) {
+            (Some(sp), Some(_)) => {
+                // With full triads the total-field ratio is less biased off the peak.
+                let triads = lo.iter().all(|r| r.is_some()) && head.roles.upper.iter().all(|r| r.is_some());
+                let (a_lo, a_up, s_lo, s_up) = if triads {
+                    let up = libm::hypotf(libm::hypotf(field.upper[0], field.upper[1]), field.upper[2]);
+                    (field.total, up, sig_lo, field.sigma_of(head.roles.upper[0]))
+                } else {
+                    (field.lower[0], field.upper[0], sig_lo, field.sigma_of(head.roles.upper[0]))
+                };
+                gate(gradient_depth(s.model, a_lo, a_up, s_lo, s_up, sp))
+            }
+            _ => DepthEstimate::none(Invalid::NoCoils),
+        };
+        let known = gate(known_moment_depth(s.model, field.horizontal, sig_lo, s.calibration.strength, s.calibration.strength_sigma));
+        if let Some(dep) = [gradient, known].iter().find(|e| e.is_valid()) {
+            self.last_depth = Some(dep.depth_m);
+        }
+        let guide = guidance(ratio, self.last_depth);
+        let mut flags = d.flags;
+        flags.set(Flags::LOW_SNR, snr < s.min_snr);
+        flags.set(Flags::QUADRATURE, have_field && field.quadrature > s.quadrature_limit);
+        flags.set(Flags::OVERRUN, self.overruns > 0);
+        self.overruns = 0;
+        let gain_request = self.gain_request(d);
+        flags.set(Flags::WEAK, gain_request.map(|g| g.up).unwrap_or(false));
+        let strength = field.horizontal;
+        Readout {
+            t_s: d.t_s,
+            sample_index: d.sample_index,
+            phasors: d.phasors,
+            field,
+            strength,
+            strength_db: 20.0 * libm::log10f(strength.max(1e-30)),
+            snr_db,
+            bearing_deg: field.bearing_rad.to_degrees(),
+            state: self.state,
+            guidance: guide,
+            gradient,
+            known_moment: known,
+            freq_offset_hz: d.freq_offset_hz,
+            flags,
+            gain_request,
+        }
+    }
+
+    fn gain_request(&self, d: &Detection<N>) -> Option<GainRequest> {
+        let s = &self.settings;
+        let mut best: Option<(f32, GainRequest)> = None;
+        for c in 0..N {
+            let pf = d.stats.peak_fraction[c];
+            let (urgency, up) = if pf >= s.gain_down_fraction || d.stats.clipped[c] > 0 {
+                (pf + 1.0, false)
+            } else if pf < s.gain_up_fraction && d.stats.samples > 0 && d.stats.non_finite[c] == 0 {
+                (1.0 - pf / s.gain_up_fraction, true)
+            } else {
+                continue;
+            };
+            if best.map(|b| urgency > b.0).unwrap_or(true) {
+                best = Some((urgency, GainRequest { channel: c as u8, up }));
+            }
+        }
+        best.map(|b| b.1)
+    }
+}

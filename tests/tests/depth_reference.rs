@@ -1,0 +1,173 @@
+//! Depth estimators against the dipole model (Griffiths eq. 5.89) and the
+//! receiver end to end on synthetic coil signals.
+
+use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::field::Source;
+use undertone_dsp::locate::components::FieldVector;
+use undertone_dsp::locate::depth::{gradient_depth, known_moment_depth, null_span_depth, Invalid};
+use undertone_dsp::locate::guidance::offset_from_ratio;
+use undertone_dsp::locate::orientation::Orientation;
+use undertone_dsp::{Beacon, DetectorSettings, FieldModel, Head, Receiver, ReceiverSettings, C32};
+use undertone_tests::{mean_var, Noise};
+
+fn level_sonde(depth_m: f32, along_m: f32) -> Source {
+    // Moment 1 A·m² along x, below the receiver origin.
+    Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [along_m, 0.0, -depth_m] }
+}
+
+#[test]
+fn gradient_depth_round_trip_noise_free() {
+    // h = s/(R^(1/3) − 1) (REFERENCES §1, derived from eq. 5.89): 0.3 m to 6 m to 1e-4 relative.
+    let head = Head::reference4();
+    for i in 0..=57 {
+        let h = 0.3 + 0.1 * i as f32;
+        let r = head.readings(&level_sonde(h, 0.0), [0.0; 3], 0.0);
+        let d = gradient_depth(FieldModel::Dipole, r[0].abs(), r[3].abs(), 0.0, 0.0, 0.4);
+        assert!(((d.depth_m - h) / h).abs() < 1e-4, "h={h}: {:?}", d);
+    }
+    // Line current: h = s/(R − 1) (Biot–Savart).
+    for h in [0.5f32, 1.0, 3.0] {
+        let src = Source::Line { current_a: 1.0, origin_m: [0.0, 0.0, -h], dir: [0.0, 1.0, 0.0] };
+        let r = head.readings(&src, [0.0; 3], 0.0);
+        let d = gradient_depth(FieldModel::Line, r[0].abs(), r[3].abs(), 0.0, 0.0, 0.4);
+        assert!(((d.depth_m - h) / h).abs() < 1e-4, "line h={h}: {d:?}");
+    }
+}
+
+#[test]
+fn gradient_sensitivity_matches_published_table() {
+    // dh/h per dR/R = −(h+s)/(3s): s = 0.4, h = 1 → −1.167; h = 2 → −2.000 (REFERENCES §1 table).
+    for (h, want) in [(1.0f32, 1.167f32), (2.0, 2.000)] {
+        let r = ((h + 0.4) / h).powi(3);
+        let d = gradient_depth(FieldModel::Dipole, r, 1.0, 0.0, 0.01, 0.4);
+        let rel_sigma = d.sigma_m / d.depth_m / 0.01;
+        assert!((rel_sigma - want).abs() < 2e-3, "h={h}: {rel_sigma}");
+    }
+}
+
+#[test]
+fn gradient_sigma_matches_observed_scatter() {
+    // With Gaussian noise on both readings the reported σ matches the observed scatter within 20 %.
+    let head = Head::reference4();
+    let mut noise = Noise::new(77, 1.0);
+    for h in [0.5f32, 1.5, 3.0] {
+        let r = head.readings(&level_sonde(h, 0.0), [0.0; 3], 0.0);
+        let (lo, up) = (r[0].abs() as f64, r[3].abs() as f64);
+        let sigma = up / 200.0; // SNR 46 dB on the upper coil
+        let mut depths = Vec::new();
+        let mut reported = Vec::new();
+        for _ in 0..4000 {
+            let a = (lo + sigma * noise.sample()) as f32;
+            let b = (up + sigma * noise.sample()) as f32;
+            let d = gradient_depth(FieldModel::Dipole, a, b, sigma as f32, sigma as f32, 0.4);
+            depths.push(d.depth_m as f64);
+            reported.push(d.sigma_m as f64);
+        }
+        let (m, v) = mean_var(&depths);
+        let rep = reported.iter().sum::<f64>() / reported.len() as f64;
+        assert!((v.sqrt() / rep - 1.0).abs() < 0.2, "h={h}: scatter {} reported {rep}", v.sqrt());
+        assert!(((m - h as f64) / h as f64).abs() < 0.02, "h={h}: mean {m}");
+    }
+}
+
+#[test]
+fn null_span_depth_level_and_pitched() {
+    // Level: nulls at ±h/√2, so h = span/√2 (REFERENCES §1). Pitched: roots of
+    // 2x²cos α + 3hx sin α − h²cos α = 0 (REFERENCES §1, derived): recover h and α.
+    for (h, alpha_deg) in [(1.0f32, 0.0f32), (2.0, 10.0), (1.2, -20.0), (3.0, 30.0)] {
+        let a = alpha_deg.to_radians() as f64;
+        let hh = h as f64;
+        let disc = (9.0 * a.sin().powi(2) + 8.0 * a.cos().powi(2)).sqrt();
+        let x1 = hh * (-3.0 * a.sin() + disc) / (4.0 * a.cos());
+        let x2 = hh * (-3.0 * a.sin() - disc) / (4.0 * a.cos());
+        let fix = null_span_depth(x1 as f32, (-x2) as f32, 0.02);
+        assert!((fix.depth.depth_m - h).abs() < 1e-4 * h, "{fix:?}");
+        assert!((fix.pitch_rad - a as f32).abs() < 1e-4, "{fix:?}");
+        // The nulls really are nulls of the pitched dipole's horizontal field.
+        let m = [a.cos() as f32, 0.0, a.sin() as f32];
+        let bx = undertone_dsp::field::dipole::dipole_field(m, [0.0, 0.0, -h], [x1 as f32, 0.0, 0.0])[0];
+        assert!(bx.abs() < 1e-4 * 1e-7 / h.powi(3), "bx at null {bx}");
+        assert!(fix.depth.sigma_m > 0.0 && fix.depth.sigma_m < 0.03);
+    }
+    assert_eq!(null_span_depth(-1.0, 1.0, 0.01).depth.invalid, Some(Invalid::BadInput));
+    assert_eq!(null_span_depth(f32::NAN, 1.0, 0.01).depth.invalid, Some(Invalid::BadInput));
+}
+
+#[test]
+fn known_moment_round_trip() {
+    let k = 1e-7f32; // μ0m/4π for m = 1 A·m²
+    for h in [0.4f32, 1.0, 2.5, 6.0] {
+        let b = k / h.powi(3);
+        let d = known_moment_depth(FieldModel::Dipole, b, b * 0.01, k, 0.0);
+        assert!(((d.depth_m - h) / h).abs() < 1e-5);
+        assert!((d.sigma_m / h - 0.01 / 3.0).abs() < 1e-5);
+    }
+    assert_eq!(known_moment_depth(FieldModel::Dipole, 1.0, 0.1, 0.0, 0.0).invalid, Some(Invalid::NotCalibrated));
+}
+
+#[test]
+fn guidance_offset_inverts_the_ratio() {
+    // ρ = 3xh/(2x² − h²) from eq. 5.89; the inverse returns the distance ahead.
+    let h = 1.5f32;
+    for x in [-0.9f32, -0.4, -0.1, 0.2, 0.6, 1.0] {
+        let rho = 3.0 * x * h / (2.0 * x * x - h * h);
+        let ahead = offset_from_ratio(rho, h);
+        assert!((ahead - (-x)).abs() < 1e-4, "x={x}: ahead {ahead}");
+    }
+}
+
+fn phasors_from(readings: &[f32; 4], phase: f32, scale: f32) -> [C32; 4] {
+    let mut p = [C32::ZERO; 4];
+    for c in 0..4 {
+        p[c] = C32::from_angle(phase).scale(readings[c] * scale);
+    }
+    p
+}
+
+#[test]
+fn never_a_depth_over_a_secondary_peak_or_off_the_peak() {
+    // The receiver must never report depth over a secondary peak (x = ±√1.5·h).
+    let head = Head::reference4();
+    let s = ReceiverSettings::new(DetectorSettings::new(48_000.0, Beacon::Hz512), InputScale::unity(24), head);
+    let mut rx = Receiver::<4>::new(s).unwrap();
+    let h = 1.5f32;
+    let det = |x: f32| {
+        let r = head.readings(&level_sonde(h, -x), [0.0; 3], 0.0);
+        undertone_dsp::Detection::<4> {
+            sample_index: 0,
+            t_s: 0.0,
+            phasors: phasors_from(&r, 0.3, 1e9),
+            noise_sigma: [1e-4; 4],
+            stats: Default::default(),
+            freq_offset_hz: 0.0,
+            flags: Default::default(),
+        }
+    };
+    for x in [1.2247f32 * h, -1.2247 * h, 0.5 * h, -0.3 * h] {
+        for _ in 0..3 {
+            let r = rx.locate(&det(x));
+            assert!(r.depth().is_none(), "x={x}: {:?}", r.gradient);
+        }
+    }
+    // Over the sonde it reads the depth.
+    for _ in 0..3 {
+        let r = rx.locate(&det(0.0));
+        assert_eq!(r.state, Orientation::InLine);
+        let d = r.gradient;
+        assert!(d.is_valid() && (d.depth_m - h).abs() < 1e-3 * h, "{d:?}");
+    }
+}
+
+#[test]
+fn field_vector_bearing_and_sign() {
+    // A horizontal field at 30° from the handle, any global sign and phase: bearing 30°.
+    let head = Head::reference4();
+    let b = [30f32.to_radians().cos(), 30f32.to_radians().sin(), 0.1, 0.5];
+    for (sign, phase) in [(1.0f32, 0.0f32), (-1.0, 1.0), (1.0, -2.5)] {
+        let p = phasors_from(&b, phase, sign);
+        let f = FieldVector::from_phasors(&head, &p, &[0.0; 4]);
+        assert!((f.bearing_rad.to_degrees() - 30.0).abs() < 1e-3, "{f:?}");
+        assert!((f.vertical_ratio() - 0.1).abs() < 1e-5);
+        assert!(f.quadrature < 1e-6);
+    }
+}
