@@ -18,6 +18,7 @@ use crate::flags::Flags;
 use crate::locate::calibration::Calibration;
 use crate::locate::components::FieldVector;
 use crate::locate::depth::{gradient_depth, known_moment_depth, DepthEstimate, Invalid};
+use crate::locate::fit::{fit, Fix};
 use crate::locate::guidance::{guidance, Guidance};
 use crate::locate::orientation::{Hysteresis, Orientation};
 
@@ -46,6 +47,10 @@ pub struct ReceiverSettings<const N: usize> {
     pub gain_down_fraction: f32,
     /// Peak input fraction below which a gain step up is requested.
     pub gain_up_fraction: f32,
+    /// Run the one-station dipole fit when the head has two full triads.
+    pub fit: bool,
+    /// χ² per degree of freedom above which the field is flagged as distorted.
+    pub distortion_chi2: f32,
 }
 
 impl<const N: usize> ReceiverSettings<N> {
@@ -63,6 +68,8 @@ impl<const N: usize> ReceiverSettings<N> {
             quadrature_limit: 0.25,
             gain_down_fraction: 0.7,
             gain_up_fraction: 0.01,
+            fit: true,
+            distortion_chi2: 9.0,
         }
     }
 }
@@ -104,6 +111,10 @@ pub struct Readout<const N: usize> {
     pub gradient: DepthEstimate,
     /// Known-moment depth.
     pub known_moment: DepthEstimate,
+    /// One-station fit depth (6-coil heads).
+    pub fit_depth: DepthEstimate,
+    /// The one-station fix, when the head has two full triads and the fit ran.
+    pub fix: Option<Fix>,
     /// Tone offset from the set frequency, Hz.
     pub freq_offset_hz: f32,
     /// Conditions.
@@ -115,7 +126,7 @@ pub struct Readout<const N: usize> {
 impl<const N: usize> Readout<N> {
     /// The best valid depth: gradient, else known moment.
     pub fn depth(&self) -> Option<DepthEstimate> {
-        [self.gradient, self.known_moment].into_iter().find(|d| d.is_valid())
+        [self.gradient, self.fit_depth, self.known_moment].into_iter().find(|d| d.is_valid())
     }
 }
 
@@ -184,6 +195,33 @@ impl<const N: usize> Receiver<N> {
         Some(self.locate(&d))
     }
 
+    /// Feed an interleaved buffer of codes (`c0 c1 … c(N−1) c0 …`), calling `on` for
+    /// every readout. Returns how many trailing samples did not fill a frame (left for the caller).
+    pub fn push_interleaved_codes(&mut self, buf: &[i32], mut on: impl FnMut(Readout<N>)) -> usize {
+        let mut chunks = buf.chunks_exact(N);
+        for ch in &mut chunks {
+            let mut f = [0i32; N];
+            f.copy_from_slice(ch);
+            if let Some(r) = self.push_codes(&f) {
+                on(r);
+            }
+        }
+        chunks.remainder().len()
+    }
+
+    /// Feed an interleaved buffer of f32 samples; as [`Receiver::push_interleaved_codes`].
+    pub fn push_interleaved(&mut self, buf: &[f32], mut on: impl FnMut(Readout<N>)) -> usize {
+        let mut chunks = buf.chunks_exact(N);
+        for ch in &mut chunks {
+            let mut f = [0f32; N];
+            f.copy_from_slice(ch);
+            if let Some(r) = self.push(&f) {
+                on(r);
+            }
+        }
+        chunks.remainder().len()
+    }
+
     /// Turn one detection into a readout.
     pub fn locate(&mut self, d: &Detection<N>) -> Readout<N> {
         let s = &self.settings;
@@ -230,7 +268,25 @@ impl<const N: usize> Receiver<N> {
             _ => DepthEstimate::none(Invalid::NoCoils),
         };
         let known = gate(known_moment_depth(s.model, field.horizontal, sig_lo, s.calibration.strength, s.calibration.strength_sigma));
-        if let Some(dep) = [gradient, known].iter().find(|e| e.is_valid()) {
+        let triads = lo.iter().chain(head.roles.upper.iter()).all(|r| r.is_some());
+        let fix = if s.fit && triads && s.model == FieldModel::Dipole && snr >= s.min_snr {
+            let k = if s.calibration.strength > 0.0 { Some(s.calibration.strength) } else { None };
+            let mut sig = field.sigma;
+            for v in sig.iter_mut() {
+                *v = v.max(1e-30);
+            }
+            Some(fit(head, &field.signed, &sig, k))
+        } else {
+            None
+        };
+        let fit_depth = match fix {
+            None => DepthEstimate::none(if triads { Invalid::LowSnr } else { Invalid::NoCoils }),
+            Some(f) if !f.converged => DepthEstimate::none(Invalid::NoFit),
+            Some(f) if f.sigma[2] > 0.5 * f.params[2] => DepthEstimate::none(Invalid::LowSnr),
+            Some(f) => DepthEstimate::valid(f.params[2], f.sigma[2]),
+        };
+        let distorted = fix.map(|f| f.dof > 0 && f.chi2 / f.dof as f32 > s.distortion_chi2).unwrap_or(false);
+        if let Some(dep) = [gradient, fit_depth, known].iter().find(|e| e.is_valid()) {
             self.last_depth = Some(dep.depth_m);
         }
         let guide = guidance(ratio, self.last_depth);
@@ -238,6 +294,7 @@ impl<const N: usize> Receiver<N> {
         flags.set(Flags::LOW_SNR, snr < s.min_snr);
         flags.set(Flags::QUADRATURE, have_field && field.quadrature > s.quadrature_limit);
         flags.set(Flags::OVERRUN, self.overruns > 0);
+        flags.set(Flags::DISTORTED, distorted);
         self.overruns = 0;
         let gain_request = self.gain_request(d);
         flags.set(Flags::WEAK, gain_request.map(|g| g.up).unwrap_or(false));
@@ -255,6 +312,8 @@ impl<const N: usize> Receiver<N> {
             guidance: guide,
             gradient,
             known_moment: known,
+            fit_depth,
+            fix,
             freq_offset_hz: d.freq_offset_hz,
             flags,
             gain_request,

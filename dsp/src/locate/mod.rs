@@ -3,5 +3,6 @@
 pub mod calibration;
 pub mod components;
 pub mod depth;
+pub mod fit;
 pub mod guidance;
 pub mod orientation;

@@ -1,0 +1,158 @@
+//! The receiver with the 6-coil head, calibration, pre-job check, formatting,
+//! interleaved input and arbitrary gains.
+
+use proptest::prelude::*;
+use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::field::vec3::from_yaw_pitch;
+use undertone_dsp::field::Source;
+use undertone_dsp::format::{length, LengthUnit};
+use undertone_dsp::locate::calibration::{calibrate, pre_job_check, CalInput, Calibration};
+use undertone_dsp::locate::depth::gradient_depth;
+use undertone_dsp::{Beacon, DetectorSettings, FieldModel, Flags, Head, Param, Receiver, ReceiverSettings, C32};
+
+fn detection<const N: usize>(r: &[f32; N], sigma: f32) -> undertone_dsp::Detection<N> {
+    undertone_dsp::Detection {
+        sample_index: 0,
+        t_s: 0.0,
+        phasors: r.map(|v| C32::from_angle(0.7).scale(v)),
+        noise_sigma: [sigma; N],
+        stats: Default::default(),
+        freq_offset_hz: 0.0,
+        flags: Default::default(),
+    }
+}
+
+fn six() -> ReceiverSettings<6> {
+    ReceiverSettings::new(DetectorSettings::new(48_000.0, Beacon::Hz512), InputScale::unity(24), Head::triads6())
+}
+
+#[test]
+fn six_coil_fix_off_the_peak() {
+    // From one position 0.5 m behind and 0.3 m right of the sonde, the fix reports offsets and depth.
+    let head = Head::triads6();
+    let src = Source::Dipole { moment_am2: from_yaw_pitch(0.2, 0.0), pos_m: [0.5, -0.3, -1.6] };
+    let r = head.readings(&src, [0.0; 3], 0.0).map(|v| v * 1e9);
+    let mut rx = Receiver::new(six()).unwrap();
+    let out = rx.locate(&detection(&r, 1e-3));
+    let fix = out.fix.expect("fit ran");
+    assert!(fix.converged);
+    assert!((fix.params[0] - 0.5).abs() < 0.01 && (fix.params[1] + 0.3).abs() < 0.01, "{fix:?}");
+    assert!(out.fit_depth.is_valid() && (out.fit_depth.depth_m - 1.6).abs() < 0.01, "{:?}", out.fit_depth);
+    assert!(!out.gradient.is_valid(), "off the peak: gradient withheld");
+}
+
+#[test]
+fn distorted_field_is_flagged_when_calibrated() {
+    // With the strength calibrated the fit has one degree of freedom; a second, nearby source
+    // (metal re-radiating, say) leaves a residual that flags the field as distorted.
+    let head = Head::triads6();
+    let k = 1e-7f32 * 1e9; // reading units·m³ for m = 1 A·m², readings scaled by 1e9
+    let src = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.2, 0.1, -1.2] };
+    let clean = head.readings(&src, [0.0; 3], 0.0).map(|v| v * 1e9);
+    let mut s = six();
+    s.calibration = Calibration { upper_gain: 1.0, strength: k, strength_sigma: 0.0 };
+    let mut rx = Receiver::new(s).unwrap();
+    let out = rx.locate(&detection(&clean, 1e-3));
+    assert!(!out.flags.contains(Flags::DISTORTED), "{:?}", out.fix);
+    let other = Source::Dipole { moment_am2: [0.0, 0.3, 0.0], pos_m: [-0.6, 0.0, -0.5] };
+    let extra = head.readings(&other, [0.0; 3], 0.0).map(|v| v * 1e9);
+    let mixed: [f32; 6] = std::array::from_fn(|i| clean[i] + extra[i]);
+    let out = rx.locate(&detection(&mixed, 1e-3));
+    assert!(out.flags.contains(Flags::DISTORTED), "{:?}", out.fix);
+}
+
+#[test]
+fn gain_calibration_corrects_upper_coil_mismatch() {
+    // Upper coil 3 % hot: uncorrected gradient depth is wrong; after calibration at 1.0 m
+    // the depth at 2.0 m comes out right (h = s/(R^(1/3) − 1), REFERENCES §1).
+    let head = Head::reference4();
+    let read = |h: f32| head.readings(&Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -h] }, [0.0; 3], 0.0).map(|v| v.abs() * 1e9);
+    let r1 = read(1.0);
+    let up1 = r1[3] * 1.03;
+    let cal = calibrate(FieldModel::Dipole, &CalInput { distance_m: 1.0, spacing_m: 0.4, a_low: r1[0], a_up: up1, sigma_low: 1e-3, sigma_up: 1e-3, vertical_ratio: 0.0 }).unwrap();
+    assert!((cal.upper_gain - 1.0 / 1.03).abs() < 1e-4, "{cal:?}");
+    let r2 = read(2.0);
+    let raw = gradient_depth(FieldModel::Dipole, r2[0], r2[3] * 1.03, 0.0, 0.0, 0.4);
+    let fixed = gradient_depth(FieldModel::Dipole, r2[0], r2[3] * 1.03 * cal.upper_gain, 0.0, 0.0, 0.4);
+    assert!((raw.depth_m - 2.0).abs() > 0.1, "{raw:?}");
+    assert!((fixed.depth_m - 2.0).abs() < 1e-3, "{fixed:?}");
+    // Strength K = A·d³ at the known distance.
+    assert!((cal.strength / (r1[0] * 1.0) - 1.0).abs() < 1e-6);
+    // Poor SNR, off the peak, or an absurd correction are refused with the reason.
+    let base = CalInput { distance_m: 1.0, spacing_m: 0.4, a_low: r1[0], a_up: up1, sigma_low: 1e-3, sigma_up: 1e-3, vertical_ratio: 0.0 };
+    assert_eq!(calibrate(FieldModel::Dipole, &CalInput { sigma_up: up1, ..base }).unwrap_err().param, Param::Calibration);
+    assert_eq!(calibrate(FieldModel::Dipole, &CalInput { vertical_ratio: 0.5, ..base }).unwrap_err().param, Param::Calibration);
+    assert_eq!(calibrate(FieldModel::Dipole, &CalInput { a_up: up1 * 2.0, ..base }).unwrap_err().param, Param::Calibration);
+    assert_eq!(calibrate(FieldModel::Dipole, &CalInput { distance_m: 9.0, ..base }).unwrap_err().param, Param::Distance);
+}
+
+#[test]
+fn pre_job_check_sees_a_weak_battery() {
+    let cal = Calibration { upper_gain: 1.0, strength: 8.0, strength_sigma: 0.0 };
+    // At 2 m a full-strength sonde reads 8/2³ = 1.0; a weak one 0.6.
+    let ok = pre_job_check(FieldModel::Dipole, 1.0, 0.001, 2.0, 0.05, &cal);
+    assert!(ok.tone_present && (ok.strength_ratio - 1.0).abs() < 1e-6 && (ok.snr_db - 60.0).abs() < 1e-3);
+    let weak = pre_job_check(FieldModel::Dipole, 0.6, 0.001, 2.0, 0.0, &cal);
+    assert!((weak.strength_ratio - 0.6).abs() < 1e-6);
+    let none = pre_job_check(FieldModel::Dipole, 0.001, 0.001, 2.0, 0.0, &cal);
+    assert!(!none.tone_present);
+}
+
+#[test]
+fn lengths_format_in_metres_and_feet() {
+    // 1 ft = 0.3048 m exactly (international foot, 1959).
+    assert_eq!(length(1.524, LengthUnit::FeetInches).as_str(), "5' 0\"");
+    assert_eq!(length(0.9144 + 0.0254 * 7.0, LengthUnit::FeetInches).as_str(), "3' 7\"");
+    assert_eq!(length(1.2345, LengthUnit::Metres).as_str(), "1.23 m");
+    assert_eq!(length(f32::NAN, LengthUnit::Metres).as_str(), "--");
+}
+
+#[test]
+fn interleaved_buffers_give_the_same_readouts_as_frames() {
+    let s = ReceiverSettings::new(DetectorSettings::new(8_000.0, Beacon::Hz512), InputScale::unity(16), Head::reference4());
+    let mut a = Receiver::new(s).unwrap();
+    let mut b = Receiver::new(s).unwrap();
+    let buf: Vec<i32> = (0..8_000 * 4 + 3).map(|i| ((i as f64 * 0.37).sin() * 9000.0) as i32).collect();
+    let mut ra = Vec::new();
+    let left = a.push_interleaved_codes(&buf, |r| ra.push(r));
+    assert_eq!(left, 3);
+    let mut rb = Vec::new();
+    for f in buf.chunks_exact(4) {
+        if let Some(r) = b.push_codes(&[f[0], f[1], f[2], f[3]]) {
+            rb.push(r);
+        }
+    }
+    assert_eq!(ra.len(), rb.len());
+    assert!(!ra.is_empty());
+    assert_eq!(ra.last().unwrap().phasors, rb.last().unwrap().phasors);
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 24, .. ProptestConfig::default() })]
+
+    #[test]
+    fn receiver_survives_any_frames_and_gains(
+        gains in prop::array::uniform6(prop_oneof![Just(1e-9f32), Just(1e9f32), Just(-1.0f32), 0.01f32..100.0]),
+        frames in prop::collection::vec(prop::array::uniform6(prop_oneof![Just(f32::NAN), Just(f32::INFINITY), Just(0.0f32), Just(1e38f32), -1.0f32..1.0]), 1..40),
+    ) {
+        let mut s = six();
+        for (c, g) in gains.iter().enumerate() {
+            s.head.coils[c].gain = *g;
+        }
+        s.detector = DetectorSettings { sample_rate_hz: 4_000.0, beacon: Beacon::Hz640, bandwidth_hz: 40.0, kind: undertone_dsp::DetectorKind::DEFAULT, readout_rate_hz: 50.0 };
+        let mut rx = Receiver::new(s).unwrap();
+        for _ in 0..60 {
+            for f in &frames {
+                if let Some(r) = rx.push(f) {
+                    prop_assert!(r.strength.is_finite() && r.strength_db.is_finite() && r.snr_db.is_finite());
+                    prop_assert!(r.bearing_deg.is_finite() && r.guidance.vertical_ratio.is_finite());
+                    for e in [r.gradient, r.fit_depth, r.known_moment] {
+                        prop_assert!(e.depth_m.is_finite() && e.sigma_m.is_finite());
+                    }
+                    if let Some(g) = r.guidance.ahead_m { prop_assert!(g.is_finite()); }
+                    prop_assert!(r.field.signed.iter().chain(r.field.sigma.iter()).all(|v| v.is_finite()));
+                }
+            }
+        }
+    }
+}
