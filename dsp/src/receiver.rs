@@ -47,6 +47,18 @@ pub struct ReceiverSettings<const N: usize> {
     pub gain_down_fraction: f32,
     /// Peak input fraction below which a gain step up is requested.
     pub gain_up_fraction: f32,
+    /// Strength must be within this fraction of its recent maximum for a depth (0.03 = 3 %).
+    pub peak_hold_fraction: f32,
+    /// How far back the recent maximum reaches, s.
+    pub peak_hold_s: f32,
+    /// Largest relative change of strength over the last half second for a depth.
+    pub steady_fraction: f32,
+    /// Largest |bearing| over the last half second for a depth, degrees.
+    pub steady_bearing_deg: f32,
+    /// Skin depth of the ground assumed for the gradient depth, m (infinite: no
+    /// correction). First order, the field falls by an extra `e^{−d/δ}`, so the
+    /// coil ratio gains `e^{s/δ}`, which is divided out.
+    pub skin_depth_m: f32,
     /// Run the one-station dipole fit when the head has two full triads.
     pub fit: bool,
     /// χ² per degree of freedom above which the field is flagged as distorted.
@@ -64,10 +76,15 @@ impl<const N: usize> ReceiverSettings<N> {
             calibration: Calibration::default(),
             hysteresis: Hysteresis::default(),
             min_snr: 10.0,
-            peak_ratio_gate: 0.10,
+            peak_ratio_gate: 0.15,
             quadrature_limit: 0.25,
             gain_down_fraction: 0.7,
             gain_up_fraction: 0.01,
+            peak_hold_fraction: 0.03,
+            peak_hold_s: 3.0,
+            steady_fraction: 0.02,
+            steady_bearing_deg: 6.0,
+            skin_depth_m: f32::INFINITY,
             fit: true,
             distortion_chi2: 9.0,
         }
@@ -131,14 +148,18 @@ impl<const N: usize> Readout<N> {
 }
 
 /// The receiver.
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Debug)]
 pub struct Receiver<const N: usize> {
     settings: ReceiverSettings<N>,
     detector: Detector<N>,
     state: Orientation,
     last_depth: Option<f32>,
     overruns: u32,
+    history: heapless::Deque<(f32, f32), HISTORY>,
 }
+
+/// Readouts of strength history kept for the peak gate.
+pub const HISTORY: usize = 128;
 
 impl<const N: usize> Receiver<N> {
     /// Validate and build.
@@ -146,7 +167,7 @@ impl<const N: usize> Receiver<N> {
         settings.head.validate()?;
         settings.hysteresis.validate()?;
         let detector = Detector::new(&settings.detector, settings.input)?;
-        Ok(Self { settings, detector, state: Orientation::Unknown, last_depth: None, overruns: 0 })
+        Ok(Self { settings, detector, state: Orientation::Unknown, last_depth: None, overruns: 0, history: heapless::Deque::new() })
     }
 
     /// Settings in force.
@@ -224,7 +245,8 @@ impl<const N: usize> Receiver<N> {
 
     /// Turn one detection into a readout.
     pub fn locate(&mut self, d: &Detection<N>) -> Readout<N> {
-        let s = &self.settings;
+        let s = self.settings;
+        let s = &s;
         let head = &s.head;
         let mut field = FieldVector::from_phasors(head, &d.phasors, &d.noise_sigma);
         // Calibrated upper along-coil gain.
@@ -241,7 +263,8 @@ impl<const N: usize> Receiver<N> {
         let have_field = snr >= 3.0;
         self.state = s.hysteresis.next(self.state, field.bearing_rad.to_degrees(), have_field);
         let ratio = field.vertical_ratio();
-        let over_peak = libm::fabsf(ratio) <= s.peak_ratio_gate;
+        let at_peak = self.at_strength_peak(field.horizontal, field.bearing_rad.to_degrees());
+        let over_peak = libm::fabsf(ratio) <= s.peak_ratio_gate && at_peak;
         let gate = |est: DepthEstimate| -> DepthEstimate {
             if !have_field || snr < s.min_snr {
                 DepthEstimate::none(Invalid::LowSnr)
@@ -263,7 +286,8 @@ impl<const N: usize> Receiver<N> {
                 } else {
                     (field.lower[0], field.upper[0], sig_lo, field.sigma_of(head.roles.upper[0]))
                 };
-                gate(gradient_depth(s.model, a_lo, a_up, s_lo, s_up, sp))
+                let soil = if s.skin_depth_m.is_finite() && s.skin_depth_m > 0.0 { libm::expf(sp / s.skin_depth_m) } else { 1.0 };
+                gate(gradient_depth(s.model, a_lo, a_up * soil, s_lo, s_up * soil, sp))
             }
             _ => DepthEstimate::none(Invalid::NoCoils),
         };
@@ -318,6 +342,41 @@ impl<const N: usize> Receiver<N> {
             flags,
             gain_request,
         }
+    }
+
+    /// Peak gate: the strength is steady and at its recent maximum. Along the
+    /// sonde axis the vertical ratio finds the peak; across it the field is
+    /// horizontal everywhere (no vertical component to go by), so the receiver
+    /// withholds depth until the strength stops rising and sits within
+    /// `peak_hold_fraction` of the largest value of the last `peak_hold_s`
+    /// (across a level dipole |B| ∝ (1 + y²/h²)^{−3/2}: 3 % below the top is
+    /// y ≈ 0.14h, where the gradient depth reads about 2 % deep). Walking a line
+    /// parallel to the axis but off it, the strength also tops out with no
+    /// vertical component, but the bearing swings through zero as the head
+    /// passes (By ∝ 3xy/r⁵); so the bearing must also have stayed within
+    /// `steady_bearing_deg` for the last half second. Standing still off the
+    /// axis cannot be told from standing over it with a 4-coil head: the
+    /// operator finds the peak across the axis first (or uses the 6-coil fit).
+    fn at_strength_peak(&mut self, strength: f32, bearing_deg: f32) -> bool {
+        let s = &self.settings;
+        let dt = self.detector.info().readout_interval_s.max(1e-3);
+        let keep = ((s.peak_hold_s / dt) as usize).clamp(2, HISTORY);
+        let lag = ((0.5 / dt) as usize).clamp(1, keep - 1);
+        let v = if strength.is_finite() { strength } else { 0.0 };
+        let b = if bearing_deg.is_finite() { libm::fabsf(bearing_deg) } else { 90.0 };
+        while self.history.len() >= keep {
+            self.history.pop_front();
+        }
+        let _ = self.history.push_back((v, b));
+        let max = self.history.iter().fold(0.0f32, |m, &x| m.max(x.0));
+        let n = self.history.len();
+        let before = if n > lag { self.history.iter().nth(n - 1 - lag).map(|x| x.0) } else { None };
+        let steady = match before {
+            Some(b) if b > 0.0 => libm::fabsf(v / b - 1.0) <= s.steady_fraction,
+            _ => false,
+        };
+        let bearing_steady = self.history.iter().skip(n.saturating_sub(lag + 1)).all(|x| x.1 <= s.steady_bearing_deg);
+        steady && bearing_steady && v >= (1.0 - s.peak_hold_fraction) * max
     }
 
     fn gain_request(&self, d: &Detection<N>) -> Option<GainRequest> {

@@ -1,4 +1,28 @@
 //! Undertone host simulator: synthetic coil signals from the physics, run
 //! through the same `undertone-dsp` pipeline the firmware runs.
+//!
+//! * [`scenario`]: what is buried and how the receiver moves (TOML).
+//! * [`physics`], [`motion`], [`synth`]: the synthetic ADC stream.
+//! * [`run`]: the receiver on that stream, readouts beside the truth.
+//! * [`report`], [`plots`]: tables, summaries, cautions, PNG/SVG plots.
+//! * [`wav`]: recordings in and out.
+//! * [`sweep`], [`depthcheck`], [`map`]: the analysis commands.
 
+pub mod commands;
+pub mod depthcheck;
 pub mod detector_demo;
+pub mod error;
+pub mod headfile;
+pub mod map;
+pub mod motion;
+pub mod output;
+pub mod physics;
+pub mod plots;
+pub mod replay;
+pub mod report;
+pub mod run;
+pub mod scenario;
+pub mod sweep;
+pub mod synth;
+pub mod walk;
+pub mod wav;

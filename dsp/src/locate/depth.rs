@@ -14,9 +14,9 @@
 //! 2. **Null span** (level dipole): the nulls of the horizontal field lie at
 //!    `x = ±h/√2`, so `h = L/√2 ≈ 0.7·L` for the null-to-null distance L (the
 //!    trade's rule). A pitched dipole (axis tilted α) has nulls at the roots of
-//!    `2x²cos α + 3hx·sin α − h²cos α = 0`: their product is `−h²/2` and sum
-//!    `−(3h/2)·tan α`. With fore distance `a` and aft distance `b` from the point
-//!    over the sonde: `h = √(2ab)`, `α = atan(2(b − a)/(3h))`.
+//!    `2x²cos α + 3hx·sin α − h²cos α = 0` and its main peak moves off the point
+//!    over it; from the fore and aft distances measured from the peak (what a
+//!    person walking the axis can mark) the ratio fixes α and the span fixes h.
 //! 3. **Known moment**: after the sonde's strength `K = μ0m/4π` is measured at a
 //!    known distance, the peak field `B = K/h³` gives `h = (K/B)^{1/3}`,
 //!    `σ_h/h = ⅓·√((σ_B/B)² + (σ_K/K)²)`.
@@ -120,31 +120,77 @@ pub fn gradient_depth(model: FieldModel, a_low: f32, a_up: f32, sigma_low: f32, 
 pub struct NullSpanFix {
     /// Depth and its uncertainty.
     pub depth: DepthEstimate,
-    /// Pitch of the sonde axis, rad (positive: nose down towards the fore null).
+    /// Pitch of the sonde axis, rad (positive: the fore null is the nearer one).
     pub pitch_rad: f32,
     /// One-sigma uncertainty of the pitch, rad.
     pub pitch_sigma_rad: f32,
 }
 
-/// Depth (and pitch) from the distances `fore_m`, `aft_m` from the point over the
-/// sonde (the peak) to the fore and aft nulls, each with one-sigma error `sigma_m`.
+/// For a dipole pitched by α at unit depth, walking along its axis: the peak of
+/// the horizontal field and the two nulls, as (fore, aft) distances from the peak.
+///
+/// `Bx(x) ∝ (2x²cos α + 3x sin α − cos α)/(x² + 1)^{5/2}`; the nulls are the roots
+/// of the numerator, the main peak the root of `6c·x³ + 12s·x² − 9c·x − 3s = 0`
+/// (the derivative) near `x = −tan α/3` (c = cos α, s = sin α).
+pub fn pitched_null_distances(alpha_rad: f32) -> (f32, f32) {
+    let (s, c) = (libm::sinf(alpha_rad), libm::cosf(alpha_rad));
+    let disc = libm::sqrtf(9.0 * s * s + 8.0 * c * c);
+    let fore_null = (-3.0 * s + disc) / (4.0 * c);
+    let aft_null = (-3.0 * s - disc) / (4.0 * c);
+    let mut x = -s / (3.0 * c);
+    for _ in 0..20 {
+        let f = 6.0 * c * x * x * x + 12.0 * s * x * x - 9.0 * c * x - 3.0 * s;
+        let df = 18.0 * c * x * x + 24.0 * s * x - 9.0 * c;
+        if libm::fabsf(df) < 1e-12 {
+            break;
+        }
+        x -= f / df;
+    }
+    (fore_null - x, x - aft_null)
+}
+
+/// Depth (and pitch) from the distances `fore_m` and `aft_m` walked along the
+/// sonde axis from the peak to the fore and aft nulls, each with one-sigma error
+/// `sigma_m`. Level: `h = (a + b)/√2`. Pitched: the ratio `a/b` fixes α (by
+/// bisection on [`pitched_null_distances`]), then `h = (a + b)/(f(α) + g(α))`.
+/// Uncertainties by first-order propagation (numerical derivatives).
 pub fn null_span_depth(fore_m: f32, aft_m: f32, sigma_m: f32) -> NullSpanFix {
     let bad = NullSpanFix { depth: DepthEstimate::none(Invalid::BadInput), pitch_rad: 0.0, pitch_sigma_rad: 0.0 };
     if !(fore_m > 0.0 && aft_m > 0.0 && sigma_m >= 0.0) || !fore_m.is_finite() || !aft_m.is_finite() || !sigma_m.is_finite() {
         return bad;
     }
-    let (a, b) = (fore_m, aft_m);
-    let h = libm::sqrtf(2.0 * a * b);
-    // h = √(2ab): ∂h/∂a = b/h, ∂h/∂b = a/h.
-    let sh = sigma_m * libm::sqrtf(a * a + b * b) / h;
-    let t = 2.0 * (b - a) / (3.0 * h);
-    let alpha = libm::atanf(t);
-    // σ of t from a, b and h (first order), then of atan.
-    let dt_da = -2.0 / (3.0 * h) - t / h * (b / h);
-    let dt_db = 2.0 / (3.0 * h) - t / h * (a / h);
-    let st = sigma_m * libm::sqrtf(dt_da * dt_da + dt_db * dt_db);
-    let sa = st / (1.0 + t * t);
-    NullSpanFix { depth: DepthEstimate::valid(h, sh), pitch_rad: alpha, pitch_sigma_rad: sa }
+    let Some((h, a)) = solve_null_span(fore_m, aft_m) else { return bad };
+    let d = 1e-3 * (fore_m + aft_m);
+    let (hf, af) = solve_null_span(fore_m + d, aft_m).unwrap_or((h, a));
+    let (hb, ab) = solve_null_span(fore_m, aft_m + d).unwrap_or((h, a));
+    let sh = sigma_m * libm::hypotf((hf - h) / d, (hb - h) / d);
+    let sa = sigma_m * libm::hypotf((af - a) / d, (ab - a) / d);
+    NullSpanFix { depth: DepthEstimate::valid(h, sh), pitch_rad: a, pitch_sigma_rad: sa }
+}
+
+fn solve_null_span(fore: f32, aft: f32) -> Option<(f32, f32)> {
+    let target = libm::logf(fore / aft);
+    let g = |al: f32| {
+        let (f, b) = pitched_null_distances(al);
+        libm::logf(f / b) - target
+    };
+    // log(fore/aft) falls as α rises (positive pitch brings the fore null in).
+    let (mut lo, mut hi) = (-1.2f32, 1.2f32);
+    let (glo, ghi) = (g(lo), g(hi));
+    if !(glo >= 0.0 && ghi <= 0.0) {
+        return None;
+    }
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if g(mid) > 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    let al = 0.5 * (lo + hi);
+    let (f, b) = pitched_null_distances(al);
+    Some(((fore + aft) / (f + b), al))
 }
 
 /// Depth from the peak field `b` (σ `sigma_b`) and a calibrated strength `k` (σ `sigma_k`):

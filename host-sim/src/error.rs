@@ -1,0 +1,52 @@
+//! Errors of the simulator and the command line: one clear line each, naming
+//! the field or file at fault and what is allowed.
+
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+/// Everything that can go wrong in the simulator.
+#[derive(Debug)]
+pub enum SimError {
+    /// A file could not be read or written.
+    Io { path: PathBuf, what: &'static str, err: std::io::Error },
+    /// A scenario or head file is not valid TOML or has unknown keys.
+    Parse { path: String, msg: String },
+    /// A value is outside its allowed range.
+    Value { path: String, field: String, value: String, allowed: String },
+    /// A WAV file the replay cannot use.
+    Wav { path: PathBuf, msg: String },
+    /// Settings the receiver refuses.
+    Config { context: String, err: undertone_dsp::ConfigError },
+    /// Bad command-line value.
+    Arg { name: String, msg: String },
+}
+
+impl SimError {
+    /// A value out of range.
+    pub fn value(path: &str, field: &str, value: impl fmt::Display, allowed: impl fmt::Display) -> Self {
+        SimError::Value { path: path.to_string(), field: field.to_string(), value: value.to_string(), allowed: allowed.to_string() }
+    }
+
+    /// An I/O error on a file.
+    pub fn io(path: &Path, what: &'static str, err: std::io::Error) -> Self {
+        SimError::Io { path: path.to_path_buf(), what, err }
+    }
+}
+
+impl fmt::Display for SimError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            SimError::Io { path, what, err } => write!(f, "{}: cannot {}: {}", path.display(), what, err),
+            SimError::Parse { path, msg } => write!(f, "{}: {}", path, msg.replace('\n', " ").trim()),
+            SimError::Value { path, field, value, allowed } => write!(f, "{path}: {field} = {value} is not allowed (allowed: {allowed})"),
+            SimError::Wav { path, msg } => write!(f, "{}: {}", path.display(), msg),
+            SimError::Config { context, err } => write!(f, "{context}: {err}"),
+            SimError::Arg { name, msg } => write!(f, "{name}: {msg}"),
+        }
+    }
+}
+
+impl std::error::Error for SimError {}
+
+/// Result with [`SimError`].
+pub type Result<T> = std::result::Result<T, SimError>;

@@ -1,0 +1,229 @@
+//! Run the receiver (the very `undertone-dsp` pipeline the firmware runs) on a
+//! scenario's synthetic stream, and collect readouts beside the truth.
+
+use crate::error::{Result, SimError};
+use crate::scenario::Scenario;
+use crate::synth::{Synth, Truth};
+use serde::Serialize;
+use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::locate::depth::DepthEstimate;
+use undertone_dsp::{Beacon, DetectorKind, DetectorSettings, Head, Readout, Receiver, ReceiverSettings, Window};
+
+/// A depth estimate as printed: value and σ, or the reason it is withheld.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq)]
+pub struct Est {
+    /// Depth, m (None when withheld).
+    pub depth_m: Option<f64>,
+    /// One-sigma, m.
+    pub sigma_m: Option<f64>,
+    /// Why withheld.
+    pub reason: Option<&'static str>,
+}
+
+impl From<DepthEstimate> for Est {
+    fn from(d: DepthEstimate) -> Self {
+        match d.invalid {
+            None => Est { depth_m: Some(d.depth_m as f64), sigma_m: Some(d.sigma_m as f64), reason: None },
+            Some(r) => Est { depth_m: None, sigma_m: None, reason: Some(r.name()) },
+        }
+    }
+}
+
+/// One readout row, head-size independent.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Row {
+    /// Time of the data's centre, s.
+    pub t_s: f64,
+    /// Time of the latest sample used (when the readout is shown), s.
+    pub t_latest_s: f64,
+    /// Horizontal field at the lower coils (reading units: T in a simulation, full scale in a replay).
+    pub strength: f64,
+    /// 20·log10(strength).
+    pub strength_db: f64,
+    /// SNR of the lower along reading, dB.
+    pub snr_db: f64,
+    /// Bearing of the field from the handle, degrees.
+    pub bearing_deg: f64,
+    /// Orientation state.
+    pub state: &'static str,
+    /// Bz/Bh.
+    pub vertical_ratio: f64,
+    /// +1 ahead, −1 behind, 0 over/unknown.
+    pub direction: i8,
+    /// Distance ahead to the point over the sonde, m.
+    pub ahead_m: Option<f64>,
+    /// Gradient depth.
+    pub gradient: Est,
+    /// Known-moment depth.
+    pub known_moment: Est,
+    /// One-station fit depth.
+    pub fit: Est,
+    /// Fit offsets ahead and left, m.
+    pub fit_offset_m: Option<[f64; 2]>,
+    /// Best depth (first valid of gradient, fit, known moment).
+    pub depth_m: Option<f64>,
+    /// Its σ.
+    pub depth_sigma_m: Option<f64>,
+    /// Tone offset, Hz.
+    pub freq_offset_hz: f64,
+    /// Flags.
+    pub flags: Vec<&'static str>,
+    /// Truth (simulation only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub truth: Option<TruthRow>,
+}
+
+/// Truth beside a readout.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq)]
+pub struct TruthRow {
+    /// Receiver east, m.
+    pub x_m: f64,
+    /// Receiver north, m.
+    pub y_m: f64,
+    /// Handle heading, degrees.
+    pub heading_deg: f64,
+    /// Depth below the lower coil centre, m.
+    pub depth_m: f64,
+    /// Sonde ahead of the handle, m.
+    pub ahead_m: f64,
+    /// Sonde left of the handle, m.
+    pub left_m: f64,
+    /// Horizontal range, m.
+    pub range_m: f64,
+    /// Sonde axis bearing from the handle, degrees.
+    pub axis_bearing_deg: f64,
+}
+
+impl From<Truth> for TruthRow {
+    fn from(t: Truth) -> Self {
+        TruthRow {
+            x_m: t.pose.x_m,
+            y_m: t.pose.y_m,
+            heading_deg: t.pose.heading_rad.to_degrees(),
+            depth_m: t.depth_m,
+            ahead_m: t.ahead_m,
+            left_m: t.left_m,
+            range_m: t.range_m,
+            axis_bearing_deg: t.axis_bearing_rad.to_degrees(),
+        }
+    }
+}
+
+/// Convert a readout of any head size.
+pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<Truth>) -> Row {
+    let best = r.depth();
+    Row {
+        t_s: r.t_s,
+        t_latest_s: r.sample_index as f64 / fs,
+        strength: r.strength as f64,
+        strength_db: r.strength_db as f64,
+        snr_db: r.snr_db as f64,
+        bearing_deg: r.bearing_deg as f64,
+        state: r.state.name(),
+        vertical_ratio: r.guidance.vertical_ratio as f64,
+        direction: r.guidance.direction,
+        ahead_m: r.guidance.ahead_m.map(|v| v as f64),
+        gradient: r.gradient.into(),
+        known_moment: r.known_moment.into(),
+        fit: r.fit_depth.into(),
+        fit_offset_m: r.fix.filter(|f| f.converged && r.fit_depth.is_valid()).map(|f| [f.params[0] as f64, f.params[1] as f64]),
+        depth_m: best.map(|d| d.depth_m as f64),
+        depth_sigma_m: best.map(|d| d.sigma_m as f64),
+        freq_offset_hz: r.freq_offset_hz as f64,
+        flags: r.flags.names().collect(),
+        truth: truth.map(Into::into),
+    }
+}
+
+/// Detector settings from a scenario.
+pub fn detector_settings(sc: &Scenario) -> DetectorSettings {
+    let d = &sc.detector;
+    let f = d.freq_hz.unwrap_or(sc.sonde.freq_hz) as f32;
+    let kind = if d.kind == "block" {
+        let window = match d.window.as_str() {
+            "rectangular" => Window::Rectangular,
+            "hann" => Window::Hann,
+            _ => Window::BlackmanHarris4,
+        };
+        DetectorKind::Block { window }
+    } else {
+        DetectorKind::LockIn { poles: d.poles }
+    };
+    let mut s = DetectorSettings::new(sc.receiver.sample_rate_hz as f32, Beacon::from_hz(f)).with_kind(kind);
+    if let Some(b) = d.bandwidth_hz {
+        s.bandwidth_hz = b as f32;
+    }
+    s.readout_rate_hz = d.readout_hz as f32;
+    s
+}
+
+/// Results of a simulated run.
+pub struct SimRun {
+    /// Readouts with truth.
+    pub rows: Vec<Row>,
+    /// Detector figures.
+    pub info: undertone_dsp::DetectorInfo,
+    /// Mains report.
+    pub mains: undertone_dsp::detect::mains::MainsReport,
+    /// Samples processed.
+    pub samples: u64,
+}
+
+/// Run a scenario (optionally with another noise seed and bandwidth).
+pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> Result<SimRun> {
+    match sc.coils() {
+        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz),
+        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz),
+    }
+}
+
+/// Receiver settings for a scenario with head `head`.
+pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth_hz: Option<f32>) -> Result<ReceiverSettings<N>> {
+    let mut det = detector_settings(sc);
+    if let Some(b) = bandwidth_hz {
+        det.bandwidth_hz = b;
+    }
+    let mut input = InputScale::<N>::unity(sc.receiver.adc_bits);
+    let fsc = input.full_scale_code as f64;
+    input.scale = [(sc.receiver.full_scale_t / fsc) as f32; N];
+    let mut s = ReceiverSettings::new(det, input, head);
+    s.skin_depth_m = crate::physics::skin_depth_m(det.beacon.freq_hz() as f64, sc.receiver.assume_conductivity_s_per_m) as f32;
+    Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
+    Ok(s)
+}
+
+fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, bw: Option<f32>) -> Result<SimRun> {
+    let s = receiver_settings(sc, head, bw)?;
+    let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
+    let mut synth = Synth::new(sc, seed);
+    let mut rows = Vec::new();
+    let mut frame = [0i32; N];
+    while synth.next_codes(&mut frame) {
+        if let Some(r) = rx.push_codes(&frame) {
+            rows.push(row(&r, synth.fs, Some(synth.truth(r.t_s.max(0.0)))));
+        }
+    }
+    Ok(SimRun { rows, info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position() })
+}
+
+/// Run the receiver on recorded frames (codes), no truth.
+pub fn replay_codes<const N: usize>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = [i32; N]>) -> Result<Vec<Row>> {
+    replay_with(settings, frames, |rx, f| rx.push_codes(f))
+}
+
+/// Run the receiver on recorded f32 frames, no truth.
+pub fn replay_floats<const N: usize>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = [f32; N]>) -> Result<Vec<Row>> {
+    replay_with(settings, frames, |rx, f| rx.push(f))
+}
+
+fn replay_with<const N: usize, F>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = F>, mut push: impl FnMut(&mut Receiver<N>, &F) -> Option<Readout<N>>) -> Result<Vec<Row>> {
+    let fs = settings.detector.sample_rate_hz as f64;
+    let mut rx = Receiver::new(settings).map_err(|err| SimError::Config { context: "replay".into(), err })?;
+    let mut rows = Vec::new();
+    for f in frames {
+        if let Some(r) = push(&mut rx, &f) {
+            rows.push(row(&r, fs, None));
+        }
+    }
+    Ok(rows)
+}
