@@ -293,7 +293,9 @@ impl<const N: usize> Receiver<N> {
         };
         let known = gate(known_moment_depth(s.model, field.horizontal, sig_lo, s.calibration.strength, s.calibration.strength_sigma));
         let triads = lo.iter().chain(head.roles.upper.iter()).all(|r| r.is_some());
-        let fix = if s.fit && triads && s.model == FieldModel::Dipole && snr >= s.min_snr {
+        // The fit needs six coils for its six unknowns; for smaller heads the branch
+        // is decided at compile time and its code left out.
+        let fix = if N >= 6 && s.fit && triads && s.model == FieldModel::Dipole && snr >= s.min_snr {
             let k = if s.calibration.strength > 0.0 { Some(s.calibration.strength) } else { None };
             let mut sig = field.sigma;
             for v in sig.iter_mut() {

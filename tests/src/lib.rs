@@ -1,7 +1,7 @@
-//! Shared helpers for the cross-crate tests: deterministic synthetic signals.
-//!
-//! Signals here are built from first principles (a cosine and Gaussian noise
-//! from a seeded generator) so a test never checks the code against itself.
+//! Shared helpers for the cross-crate tests: deterministic synthetic signals
+//! and the target images.
+
+pub mod target;
 
 use rand::rngs::StdRng;
 use rand::SeedableRng;
@@ -9,9 +9,7 @@ use rand_distr::{Distribution, Normal};
 
 /// `A·cos(2π·f/fs·n + φ)` for `n` in `0..len`, computed in f64.
 pub fn tone(len: usize, fs: f64, f_hz: f64, amp: f64, phase_rad: f64) -> Vec<f32> {
-    (0..len)
-        .map(|n| (amp * (2.0 * std::f64::consts::PI * f_hz / fs * n as f64 + phase_rad).cos()) as f32)
-        .collect()
+    (0..len).map(|n| (amp * (2.0 * std::f64::consts::PI * f_hz / fs * n as f64 + phase_rad).cos()) as f32).collect()
 }
 
 /// Seeded Gaussian noise source.

@@ -11,7 +11,7 @@
 
 use crate::complex::C32;
 use crate::detect::goertzel::{Goertzel, GoertzelState};
-use crate::detect::nco::reference_at;
+use crate::detect::nco::{phase_step, reference_at};
 use crate::detect::settings::MAX_OVERLAP;
 use crate::detect::window::Window;
 
@@ -27,8 +27,8 @@ pub struct BlockDetector {
     pub window: Window,
     g: Goertzel,
     gp: Goertzel,
-    cycles: f64,
-    probe_cycles: f64,
+    step: u32,
+    probe_step: u32,
     norm: f32,
     /// Sample rate, Hz.
     pub sample_rate_hz: f32,
@@ -59,8 +59,8 @@ impl BlockDetector {
             window,
             g: Goertzel::from_cycles_per_sample(cycles),
             gp: Goertzel::from_cycles_per_sample(probe_cycles),
-            cycles,
-            probe_cycles,
+            step: phase_step(cycles),
+            probe_step: phase_step(probe_cycles),
             norm: 2.0 / window.sum(len),
             sample_rate_hz,
         }
@@ -107,8 +107,8 @@ impl<const N: usize> BlockState<N> {
             s.pos += 1;
             if s.pos == cfg.len {
                 s.active = false;
-                let rot = reference_at(cfg.cycles, s.start);
-                let rotp = reference_at(cfg.probe_cycles, s.start);
+                let rot = reference_at(cfg.step, s.start);
+                let rotp = reference_at(cfg.probe_step, s.start);
                 let mut out = [C32::ZERO; N];
                 let mut outp = [C32::ZERO; N];
                 for c in 0..N {

@@ -20,10 +20,11 @@
 //!
 //! Real-time budget: per sample one complex rotation shared by all coils and
 //! two multiply-adds per coil (plus the same again for the noise probe);
-//! the low-pass runs once per `M` samples.
+//! the low-pass runs once per `M` samples, the oscillator's exact re-sync once
+//! per 256 samples.
 
 use crate::complex::C32;
-use crate::detect::nco::Nco;
+use crate::detect::nco::{Nco, RESYNC};
 use crate::detect::settings::enbw_tau_product;
 
 /// Highest intermediate rate after the boxcar, Hz.
@@ -64,6 +65,7 @@ pub struct LockInState<const N: usize> {
     pub produced: u64,
     osc: Nco,
     osc_p: Nco,
+    synced: bool,
 }
 
 impl LockIn {
@@ -186,15 +188,17 @@ impl<const N: usize> LockInState<N> {
             produced: 0,
             osc: Nco::new(cycles),
             osc_p: Nco::new(probe_cycles),
+            synced: false,
         }
     }
 
     /// Feed one frame (sample index `n`); returns (main, probe) phasors at readout instants.
     #[inline]
     pub fn step(&mut self, cfg: &LockIn, n: u64, x: &[f32; N]) -> Option<([C32; N], [C32; N])> {
-        if self.count == 0 {
+        if n & (RESYNC as u64 - 1) == 0 || !self.synced {
             self.osc.sync(n);
             self.osc_p.sync(n);
+            self.synced = true;
         }
         let r = self.osc.value;
         let rp = self.osc_p.value;

@@ -119,7 +119,10 @@ impl<const N: usize> Detector<N> {
         let fs = settings.sample_rate_hz;
         let f0 = settings.beacon.freq_hz();
         let bw = settings.bandwidth_hz;
-        let cycles = f0 as f64 / fs as f64;
+        // The tone as the 32-bit phase increment represents it, so every part of the
+        // detector works at exactly the same frequency.
+        let cycles = nco::step_cycles(nco::phase_step(f0 as f64 / fs as f64));
+        let quantise = |hz: f32| nco::step_cycles(nco::phase_step(hz as f64 / fs as f64));
         let fmax = settings::MAX_FREQ_FRACTION * fs;
         let (core, info) = match settings.kind {
             DetectorKind::Block { window } => {
@@ -141,7 +144,7 @@ impl<const N: usize> Detector<N> {
                 };
                 let bin_hz = fs / len as f32;
                 let probe = mains::quiet_neighbour_hz(f0, lobe_bins * bin_hz, fmax);
-                let det = BlockDetector::new(fs, cycles, probe as f64 / fs as f64, window, len, hop);
+                let det = BlockDetector::new(fs, cycles, quantise(probe), window, len, hop);
                 let info = DetectorInfo {
                     tone_hz: f0,
                     probe_hz: probe,
@@ -176,7 +179,7 @@ impl<const N: usize> Detector<N> {
                     block_len: li.m,
                     overlap: 1,
                 };
-                (Core::LockIn(li, LockInState::new(cycles, probe as f64 / fs as f64)), info)
+                (Core::LockIn(li, LockInState::new(cycles, quantise(probe))), info)
             }
         };
         let mut det = Self {
@@ -192,7 +195,7 @@ impl<const N: usize> Detector<N> {
             mains_flag: false,
             readouts: 0,
             cycles,
-            probe_cycles: info.probe_hz as f64 / fs as f64,
+            probe_cycles: nco::step_cycles(nco::phase_step(info.probe_hz as f64 / fs as f64)),
         };
         det.mains_flag = det.mains().flagged();
         Ok(det)

@@ -1,33 +1,50 @@
 //! Quadrature reference oscillator shared by every coil.
 //!
-//! Produces `e^{−jωn}` for the absolute sample index `n`. The phase at the
-//! start of each pre-decimation block is computed exactly (f64 turns, reduced
-//! modulo one cycle) and the block is then stepped by an f32 complex rotation
-//! `e^{−jω}`, so rounding cannot accumulate beyond one block (tens to hundreds
-//! of samples: < 1e-5 rad).
+//! Produces `e^{−jωn}` for the absolute sample index `n`. The frequency is held
+//! as a 32-bit phase increment (`step = round(f/fs·2³²)`, a resolution of
+//! `fs/2³²`, 4 µHz at 16 kHz), so the exact phase of any sample is the integer
+//! `(n mod 2³²)·step mod 2³²`. The oscillator is set to that exact phase every
+//! [`RESYNC`] samples (one `sinf`/`cosf` pair) and stepped in between by an f32
+//! complex rotation `e^{−jω}`, whose rounding (about 6e-8 per step in
+//! magnitude and angle) cannot build up beyond about 1.5e-5 in that span. Integer and single-precision only, so the
+//! Cortex-M4F and the PC compute the same values.
 
 use crate::complex::C32;
 
-/// Oscillator at `cycles` per sample.
+/// Samples between exact re-synchronisations of the oscillator.
+pub const RESYNC: u32 = 256;
+
+/// Oscillator at a fixed frequency.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Nco {
-    cycles: f64,
+    step: u32,
     rotor: C32,
     /// Current value `e^{−jωn}`.
     pub value: C32,
 }
 
+/// The 32-bit phase increment for `cycles` per sample (wrapped into [0, 1)).
+pub fn phase_step(cycles: f64) -> u32 {
+    let c = cycles - libm::floor(cycles);
+    (libm::round(c * 4_294_967_296.0) as u64 & 0xFFFF_FFFF) as u32
+}
+
+/// The frequency a phase increment really has, cycles per sample.
+pub fn step_cycles(step: u32) -> f64 {
+    step as f64 / 4_294_967_296.0
+}
+
 impl Nco {
     /// New oscillator at `cycles` per sample (f/fs), at n = 0.
     pub fn new(cycles: f64) -> Self {
-        let w = 2.0 * core::f64::consts::PI * cycles;
-        Self { cycles, rotor: C32::new(libm::cos(w) as f32, -libm::sin(w) as f32), value: C32::new(1.0, 0.0) }
+        let step = phase_step(cycles);
+        Self { step, rotor: reference_at(step, 1), value: C32::new(1.0, 0.0) }
     }
 
-    /// Frequency in cycles per sample.
-    pub fn cycles(&self) -> f64 {
-        self.cycles
+    /// Phase increment.
+    pub fn step_value(&self) -> u32 {
+        self.step
     }
 
     /// Advance one sample.
@@ -38,21 +55,15 @@ impl Nco {
 
     /// Set the value exactly for absolute sample index `n`.
     pub fn sync(&mut self, n: u64) {
-        self.value = reference_at(self.cycles, n);
+        self.value = reference_at(self.step, n);
     }
 }
 
-/// `e^{−j2π·cycles·n}` computed from the phase reduced modulo one turn.
-pub fn reference_at(cycles: f64, n: u64) -> C32 {
-    // Split n so the product keeps full precision for very long runs.
-    let hi = (n >> 24) as f64 * 16_777_216.0;
-    let lo = (n & 0xFF_FFFF) as f64;
-    let mut turns = frac(cycles * hi) + frac(cycles * lo);
-    turns = frac(turns);
-    let ph = -2.0 * core::f64::consts::PI * turns;
-    C32::new(libm::cos(ph) as f32, libm::sin(ph) as f32)
-}
-
-fn frac(x: f64) -> f64 {
-    x - libm::floor(x)
+/// `e^{−j2π·phase/2³²}` with `phase = (n mod 2³²)·step mod 2³²`.
+pub fn reference_at(step: u32, n: u64) -> C32 {
+    let phase = (n as u32).wrapping_mul(step);
+    // Map to (−π, π] so the f32 argument keeps full relative precision.
+    let turns = phase as i32 as f32 * (1.0 / 4_294_967_296.0);
+    let ph = -core::f32::consts::TAU * turns;
+    C32::new(libm::cosf(ph), libm::sinf(ph))
 }

@@ -1,0 +1,68 @@
+//! The emulator image: the application core (driver, queue, settings parser,
+//! storage on a RAM flash, receiver) fed by an emulated converter through the
+//! same driver path, readouts printed over semihosting, run under QEMU's
+//! `mps2-an386`. On the host the same run prints to stdout: its twin.
+//!
+//! Cost: SysTick counts the core clock (25 MHz on this machine); under
+//! `-icount shift=0` QEMU executes one instruction per nanosecond, so one tick
+//! is 40 instructions. The last line reports ticks spent in the receiver and in
+//! the driver.
+
+#![cfg_attr(target_os = "none", no_std)]
+#![cfg_attr(target_os = "none", no_main)]
+
+use undertone_firmware::emulated::EMU_FRAMES as FRAMES;
+
+#[cfg(target_os = "none")]
+mod target {
+    use cortex_m::peripheral::syst::SystClkSource;
+    use cortex_m::peripheral::SYST;
+    use cortex_m_rt::entry;
+    use cortex_m_semihosting::{debug, hprintln};
+
+    #[entry]
+    fn main() -> ! {
+        let Some(cp) = cortex_m::Peripherals::take() else {
+            debug::exit(debug::EXIT_FAILURE);
+            loop {}
+        };
+        let mut syst = cp.SYST;
+        syst.set_clock_source(SystClkSource::Core);
+        syst.set_reload(0x00FF_FFFF);
+        syst.clear_current();
+        syst.enable_counter();
+        let mut last = SYST::get_current();
+        let mut total: u64 = 0;
+        let mut clock = || {
+            let now = SYST::get_current();
+            total += (last.wrapping_sub(now) & 0x00FF_FFFF) as u64;
+            last = now;
+            total
+        };
+        let rep = undertone_firmware::emulated::run(super::FRAMES, &mut clock, &mut |l| hprintln!("{}", l));
+        hprintln!(
+            "E frames={} readouts={} receiver_ticks={} driver_ticks={} gain_steps={} rejected={}",
+            rep.frames,
+            rep.readouts,
+            rep.receiver_clock,
+            rep.driver_clock,
+            rep.gain_steps,
+            rep.rejected
+        );
+        debug::exit(debug::EXIT_SUCCESS);
+        loop {}
+    }
+
+    #[panic_handler]
+    fn panic(info: &core::panic::PanicInfo) -> ! {
+        hprintln!("panic: {}", info);
+        debug::exit(debug::EXIT_FAILURE);
+        loop {}
+    }
+}
+
+#[cfg(not(target_os = "none"))]
+fn main() {
+    let rep = undertone_firmware::emulated::run(FRAMES, &mut || 0, &mut |l| println!("{l}"));
+    println!("E frames={} readouts={} receiver_ticks=0 driver_ticks=0 gain_steps={} rejected={}", rep.frames, rep.readouts, rep.gain_steps, rep.rejected);
+}

@@ -1,0 +1,302 @@
+//! An emulated converter and the emulation run shared by the emulator image
+//! and its host twin.
+//!
+//! [`FakeAdc`] stands in for the converter on the SPI side: it answers the same
+//! command words, keeps the registers the driver writes, applies the PGA gains
+//! and sends frames with the CRC the driver checks, so the board's driver path
+//! (driver → queue → application core) runs unchanged. [`Synthetic`] makes the
+//! codes: a tone on each coil with the amplitudes a level dipole gives the
+//! reference head (Griffiths eq. 5.89 via `undertone-dsp`), plus integer noise.
+//! Everything is integer or IEEE-754 single precision with software `libm`, so
+//! the host and the Cortex-M4F compute the same numbers.
+
+use crate::ads131::{cmd, get_word, Ads131, Osr, MAX_FRAME, WORD};
+use crate::app::{readout_line, App, REPLY};
+use crate::crc::crc16_ccitt;
+use crate::protocol::{LineBuffer, LineEvent};
+use crate::queue::FrameQueue;
+use crate::settings::Settings;
+use crate::storage::{LoadOutcome, RamFlash, Store};
+use core::cell::Cell;
+use core::convert::Infallible;
+use core::fmt::Write;
+use embedded_hal::spi::{Operation, SpiDevice};
+use heapless::String;
+use undertone_dsp::field::Source;
+use undertone_dsp::Head;
+
+/// Source of one conversion per call.
+pub trait SampleSource<const N: usize> {
+    /// The next conversion, codes at gain ×1.
+    fn next(&mut self) -> [i32; N];
+}
+
+/// A tone on every coil plus noise, deterministic.
+pub struct Synthetic<const N: usize> {
+    amp: [f32; N],
+    phase: u32,
+    step: u32,
+    lcg: u32,
+    noise: i32,
+}
+
+impl<const N: usize> Synthetic<N> {
+    /// Tone `f_hz` at `fs`, amplitudes in codes, uniform noise of ±`noise` codes (sum of two).
+    pub fn new(f_hz: f32, fs: f32, amp: [f32; N], noise: i32) -> Self {
+        let step = ((f_hz as f64 / fs as f64) * 4_294_967_296.0) as u32;
+        Self { amp, phase: 0x1234_5678, step, lcg: 0x2545_F491, noise }
+    }
+
+    fn rand(&mut self) -> i32 {
+        // Numerical Recipes' 32-bit LCG (Press et al., 2nd ed., §7.1).
+        self.lcg = self.lcg.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
+        let r = (self.lcg >> 8) as i32 % (self.noise.max(1) + 1);
+        r * 2 - self.noise
+    }
+}
+
+impl<const N: usize> SampleSource<N> for Synthetic<N> {
+    fn next(&mut self) -> [i32; N] {
+        let s = libm::sinf(self.phase as f32 * (core::f32::consts::TAU / 4_294_967_296.0));
+        self.phase = self.phase.wrapping_add(self.step);
+        let mut out = [0i32; N];
+        for c in 0..N {
+            let n = (self.rand() + self.rand()) / 2;
+            out[c] = libm::roundf(self.amp[c] * s) as i32 + n;
+        }
+        out
+    }
+}
+
+/// The converter's side of the bus.
+pub struct FakeAdc<'a, S, const N: usize> {
+    source: S,
+    ready: &'a Cell<bool>,
+    current: [i32; N],
+    regs: [u16; 64],
+    pending: u16,
+    /// Every k-th frame gets one bit flipped after its CRC (0: never).
+    pub corrupt_every: u32,
+    /// Frames served.
+    pub frames: u32,
+}
+
+/// The data-ready line the fake converter drives.
+pub struct FakeDrdy<'a>(pub &'a Cell<bool>);
+
+impl embedded_hal::digital::ErrorType for FakeDrdy<'_> {
+    type Error = Infallible;
+}
+
+impl embedded_hal::digital::InputPin for FakeDrdy<'_> {
+    fn is_high(&mut self) -> Result<bool, Infallible> {
+        Ok(!self.0.get())
+    }
+    fn is_low(&mut self) -> Result<bool, Infallible> {
+        Ok(self.0.get())
+    }
+}
+
+/// A delay that returns at once (the emulation has no real time).
+pub struct NoWait;
+
+impl embedded_hal::delay::DelayNs for NoWait {
+    fn delay_ns(&mut self, _ns: u32) {}
+}
+
+impl<'a, S: SampleSource<N>, const N: usize> FakeAdc<'a, S, N> {
+    /// A converter fed by `source`, driving `ready` (true = data ready).
+    pub fn new(source: S, ready: &'a Cell<bool>) -> Self {
+        Self { source, ready, current: [0; N], regs: [0; 64], pending: 0, corrupt_every: 0, frames: 0 }
+    }
+
+    /// A conversion completes: new data, data-ready asserted.
+    pub fn convert(&mut self) {
+        self.current = self.source.next();
+        self.ready.set(true);
+    }
+
+    fn serve(&mut self, buf: &mut [u8]) {
+        let command = get_word(buf, 0);
+        let data = if buf.len() >= 2 * WORD { get_word(buf, 1) } else { 0 };
+        let mut out = [0u8; MAX_FRAME];
+        let put = |out: &mut [u8; MAX_FRAME], i: usize, v: u32| {
+            out[i * WORD] = (v >> 16) as u8;
+            out[i * WORD + 1] = (v >> 8) as u8;
+            out[i * WORD + 2] = v as u8;
+        };
+        put(&mut out, 0, (self.pending as u32) << 8);
+        let gains = [self.regs[4], self.regs[5]];
+        for c in 0..N {
+            let g = (gains[c / 4] >> ((c % 4) * 4)) & 7;
+            let v = (self.current[c] as i64) << g;
+            let v = v.clamp(-(1 << 23), (1 << 23) - 1) as i32;
+            put(&mut out, c + 1, (v as u32) & 0xFF_FFFF);
+        }
+        let crc = crc16_ccitt(0xFFFF, &out[..(N + 1) * WORD]);
+        put(&mut out, N + 1, (crc as u32) << 8);
+        self.frames += 1;
+        if self.corrupt_every > 0 && self.frames % self.corrupt_every == 0 {
+            out[WORD + 1] ^= 0x10;
+        }
+        let n = buf.len().min((N + 2) * WORD);
+        buf[..n].copy_from_slice(&out[..n]);
+        self.ready.set(false);
+        // The answer to this frame's command comes with the next frame.
+        self.pending = match command & 0xE000 {
+            _ if command == cmd::RESET => {
+                self.regs = [0; 64];
+                self.regs[2] = 0x0510;
+                0xFF20 | N as u16
+            }
+            0xA000 => self.regs[((command >> 7) & 0x3F) as usize],
+            0x6000 => {
+                let addr = ((command >> 7) & 0x3F) as usize;
+                self.regs[addr] = data;
+                0x4000 | ((addr as u16) << 7)
+            }
+            _ => 0x0500 | ((1 << N.min(8)) - 1) as u16,
+        };
+    }
+}
+
+impl<S, const N: usize> embedded_hal::spi::ErrorType for FakeAdc<'_, S, N> {
+    type Error = Infallible;
+}
+
+impl<S: SampleSource<N>, const N: usize> SpiDevice<u8> for FakeAdc<'_, S, N> {
+    fn transaction(&mut self, ops: &mut [Operation<'_, u8>]) -> Result<(), Infallible> {
+        for op in ops {
+            if let Operation::TransferInPlace(buf) = op {
+                self.serve(buf);
+            }
+        }
+        Ok(())
+    }
+}
+
+/// What an emulation run measured.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct EmuReport {
+    /// Frames read.
+    pub frames: u32,
+    /// Readouts produced.
+    pub readouts: u32,
+    /// Clock units spent in the receiver (application core), from `clock`.
+    pub receiver_clock: u64,
+    /// Clock units spent in the driver reading frames.
+    pub driver_clock: u64,
+    /// Gain steps carried out.
+    pub gain_steps: u32,
+    /// Frames rejected by the driver.
+    pub rejected: u32,
+}
+
+/// Conversions the emulator image runs: 4 s at 16 kSPS.
+pub const EMU_FRAMES: u32 = 64_000;
+
+/// Sample rate of the emulation, Hz.
+pub const EMU_OSR: Osr = Osr::R256;
+/// Depth of the sonde below the lower coil in the emulation, m.
+pub const EMU_DEPTH_M: f32 = 1.2;
+
+/// Coil amplitudes (codes) of a level 512 Hz sonde `EMU_DEPTH_M` below the reference head,
+/// strongest coil at a quarter of full scale.
+pub fn emu_amplitudes() -> [f32; 4] {
+    let head = Head::reference4();
+    let src = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -EMU_DEPTH_M] };
+    let r = head.readings(&src, [0.0; 3], 0.0);
+    let peak = r.iter().fold(0.0f32, |m, v| m.max(libm::fabsf(*v)));
+    let mut a = [0.0; 4];
+    for c in 0..4 {
+        a[c] = r[c] / peak * 2_097_152.0;
+    }
+    a
+}
+
+static QUEUE: FrameQueue<4, 32> = FrameQueue::new();
+
+/// Run the emulation for `frames` conversions. `clock` reads a free-running
+/// counter (instructions on the target, anything on the host); `out` receives
+/// each line to print.
+pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str)) -> EmuReport {
+    let mut rep = EmuReport::default();
+    let mut line: String<REPLY> = String::new();
+    let fs = EMU_OSR.rate_hz();
+    // Settings from a RAM flash, as the board loads them from its last sector.
+    let mut store = match Store::new(RamFlash::<4096>::new(), 0, 4096) {
+        Ok(s) => s,
+        Err(_) => return rep,
+    };
+    let (settings, outcome) = store.load(Settings::defaults());
+    let _ = write!(line, "I settings: {}", if outcome == LoadOutcome::Empty { "no record, defaults" } else { "loaded" });
+    out(&line);
+    let fsc = 8_388_607;
+    let (mut app, err) = match App::new(settings, Settings::defaults(), fs, fsc, [1.0 / fsc as f32; 4]) {
+        Ok(a) => a,
+        Err(_) => return rep,
+    };
+    if err.is_some() {
+        out("I settings refused, defaults in force");
+    }
+    // A few commands through the same parser the RTT channel feeds.
+    let mut lb = LineBuffer::new();
+    for &b in b"rate 20\nfreq 99999\nsave\nshow\n" {
+        if let LineEvent::Line(l) = lb.push(b) {
+            let mut reply: String<REPLY> = String::new();
+            if app.command(&l, &mut reply) == crate::app::Effect::Save {
+                let _ = store.save(app.settings());
+            }
+            line.clear();
+            let _ = write!(line, "C {} -> {}", l.as_str(), reply.as_str());
+            out(&line);
+        }
+    }
+    let ready = Cell::new(false);
+    let mut fake = FakeAdc::new(Synthetic::new(512.0, fs, emu_amplitudes(), 3000), &ready);
+    fake.corrupt_every = 997;
+    let mut adc: Ads131<_, _, _, 4> = Ads131::new(&mut fake, FakeDrdy(&ready), NoWait);
+    if adc.init(EMU_OSR, [0; 4]).is_err() {
+        out("E converter did not initialise");
+        return rep;
+    }
+    for _ in 0..frames {
+        // The conversion completes; on the board the data-ready interrupt runs now.
+        adc.with_spi(|s| s.convert());
+        let t0 = clock();
+        if adc.data_ready().unwrap_or(false) {
+            match adc.read() {
+                Ok(f) => {
+                    QUEUE.push(f);
+                }
+                Err(_) => rep.rejected += 1,
+            }
+        }
+        let t1 = clock();
+        rep.driver_clock += t1.wrapping_sub(t0);
+        // Main loop: drain the queue into the receiver.
+        while let Some(f) = QUEUE.pop() {
+            rep.frames += 1;
+            let t0 = clock();
+            let r = app.process(&f);
+            rep.receiver_clock += clock().wrapping_sub(t0);
+            if let Some(r) = r {
+                rep.readouts += 1;
+                readout_line(&r, &mut line);
+                out(&line);
+                if let Some(g) = r.gain_request {
+                    let ch = g.channel as usize;
+                    let old = adc.gains()[ch];
+                    let new = if g.up { old.saturating_add(1).min(7) } else { old.saturating_sub(1) };
+                    if new != old && adc.set_gain(ch, new).is_ok() {
+                        app.gain_changed(ch, if new > old { 2.0 } else { 0.5 });
+                        rep.gain_steps += 1;
+                    }
+                }
+            }
+        }
+        app.note_overruns(QUEUE.take_overruns());
+    }
+    rep
+}
+
