@@ -12,17 +12,7 @@ use core::fmt::Write;
 pub fn parse_f32(s: &str) -> Option<f32> {
     let b = s.as_bytes();
     let mut i = 0;
-    let neg = match b.first() {
-        Some(b'-') => {
-            i += 1;
-            true
-        }
-        Some(b'+') => {
-            i += 1;
-            false
-        }
-        _ => false,
-    };
+    let neg = take_sign(b, &mut i);
     let mut mant: u64 = 0;
     let mut exp10: i32 = 0;
     let mut digits = 0;
@@ -51,17 +41,7 @@ pub fn parse_f32(s: &str) -> Option<f32> {
     }
     if i < b.len() && (b[i] == b'e' || b[i] == b'E') {
         i += 1;
-        let eneg = match b.get(i) {
-            Some(b'-') => {
-                i += 1;
-                true
-            }
-            Some(b'+') => {
-                i += 1;
-                false
-            }
-            _ => false,
-        };
+        let eneg = take_sign(b, &mut i);
         let mut e: i32 = 0;
         let start = i;
         while i < b.len() && b[i].is_ascii_digit() {
@@ -84,6 +64,21 @@ pub fn parse_f32(s: &str) -> Option<f32> {
     Some(if neg { -v } else { v })
 }
 
+/// Skip a leading '+' or '-' at `i`; true for '-'.
+fn take_sign(b: &[u8], i: &mut usize) -> bool {
+    match b.get(*i) {
+        Some(b'-') => {
+            *i += 1;
+            true
+        }
+        Some(b'+') => {
+            *i += 1;
+            false
+        }
+        _ => false,
+    }
+}
+
 fn pow10_f64(mut n: u32) -> f64 {
     let mut r = 1.0f64;
     let mut base = 10.0f64;
@@ -98,24 +93,8 @@ fn pow10_f64(mut n: u32) -> f64 {
 }
 
 fn pow10(e: i32) -> f32 {
-    let e = e.clamp(-80, 80);
-    let mut r = 1.0f32;
-    let mut base = if e < 0 { 0.1f32 } else { 10.0f32 };
-    let mut n = e.unsigned_abs();
-    // Split so intermediate results stay in range: 1e-45 … 3e38.
-    let mut acc = 1.0f32;
-    while n > 0 {
-        if n & 1 == 1 {
-            acc *= base;
-        }
-        base *= base;
-        if !base.is_finite() || base == 0.0 {
-            base = if e < 0 { 0.0 } else { f32::INFINITY };
-        }
-        n >>= 1;
-    }
-    r *= acc;
-    r
+    let p = pow10_f64(e.clamp(-80, 80).unsigned_abs());
+    (if e < 0 { 1.0 / p } else { p }) as f32
 }
 
 /// Print `v` with up to six significant digits.
@@ -142,7 +121,6 @@ pub fn write_f32(out: &mut impl Write, v: f32) -> core::fmt::Result {
     }
     if (-3..6).contains(&e) {
         // Fixed point: integer part and fraction with trailing zeros removed.
-        let scale = 5 - e;
         let mut digits = [0u8; 6];
         let mut x = m;
         for d in digits.iter_mut().rev() {
@@ -167,7 +145,6 @@ pub fn write_f32(out: &mut impl Write, v: f32) -> core::fmt::Result {
                 out.write_char((b'0' + d) as char)?;
             }
         }
-        let _ = scale;
         Ok(())
     } else {
         let lead = m / 100_000;
