@@ -210,6 +210,25 @@ impl<const N: usize> Receiver<N> {
         Some(self.locate(&d))
     }
 
+    /// Feed many frames of codes (the fast path); `on` receives every readout.
+    pub fn push_codes_block(&mut self, frames: &[[i32; N]], mut on: impl FnMut(Readout<N>)) {
+        // Readouts are at least 40 samples apart (100 readouts/s at 4 kHz), so a
+        // chunk of 128 frames completes at most 4.
+        let mut dets: heapless::Vec<Detection<N>, 4> = heapless::Vec::new();
+        let mut start = 0;
+        while start < frames.len() {
+            let end = frames.len().min(start + 128);
+            self.detector.push_codes_block(&frames[start..end], |d| {
+                let _ = dets.push(d);
+            });
+            for d in dets.iter() {
+                on(self.locate(d));
+            }
+            dets.clear();
+            start = end;
+        }
+    }
+
     /// Feed a frame of f32 samples.
     pub fn push(&mut self, frame: &[f32; N]) -> Option<Readout<N>> {
         let d = self.detector.push(frame)?;

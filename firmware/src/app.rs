@@ -64,6 +64,11 @@ impl<const N: usize> App<N> {
         self.receiver.push_codes(frame)
     }
 
+    /// Many frames of codes (the fast path); `on` receives every readout.
+    pub fn process_block(&mut self, frames: &[[i32; N]], on: impl FnMut(Readout<N>)) {
+        self.receiver.push_codes_block(frames, on);
+    }
+
     /// Frames dropped before they reached us.
     pub fn note_overruns(&mut self, n: u32) {
         if n > 0 {

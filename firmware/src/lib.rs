@@ -22,6 +22,7 @@
 
 pub mod ads131;
 pub mod app;
+pub mod bench;
 pub mod crc;
 pub mod emulated;
 pub mod num;

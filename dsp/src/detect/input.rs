@@ -105,6 +105,39 @@ impl<const N: usize> InputScale<N> {
         out
     }
 
+    /// Statistics of a block of codes already mixed, from the OR of their
+    /// one's-complement magnitudes `or` (its top bit bounds the largest |code|
+    /// within a factor of two). Blocks that may reach half scale are recounted
+    /// exactly (clipping counts and the true peak); for the rest the peak is the
+    /// bound `2^(b+1) − 1` of the highest set bit b, and nothing can be clipped.
+    pub fn code_stats(&self, frames: &[[i32; N]], or: &[u32; N], stats: &mut ChannelStats<N>) {
+        let fsc = self.full_scale_code;
+        let half = (fsc as u32 / 2).max(1);
+        let inv = 1.0 / fsc as f32;
+        for c in 0..N {
+            let peak = if or[c] >= half {
+                let mut m = 0u32;
+                for f in frames {
+                    let k = f[c];
+                    if k >= fsc || k <= -fsc {
+                        stats.clipped[c] += 1;
+                    }
+                    m = m.max(k.unsigned_abs());
+                }
+                m
+            } else if or[c] == 0 {
+                0
+            } else {
+                u32::MAX >> or[c].leading_zeros()
+            };
+            let frac = peak as f32 * inv;
+            if frac > stats.peak_fraction[c] {
+                stats.peak_fraction[c] = frac;
+            }
+        }
+        stats.samples += frames.len() as u32;
+    }
+
     /// Convert floats, updating `stats`.
     #[inline]
     pub fn floats(&self, v: &[f32; N], stats: &mut ChannelStats<N>) -> [f32; N] {

@@ -14,9 +14,10 @@
 //! requested `B`. Either detector then gives each real component of its phasor
 //! the noise variance `2·σw²·B/fs` for white input noise of variance σw².
 //! Mixing a real tone also leaves an image at `−2f0`. `M` is chosen (f_i between
-//! 400 Hz and 4 kHz) to minimise that image at the output: the boxcar's
-//! attenuation at `2f0` times the low-pass attenuation where the image aliases
-//! after decimation ([`LockIn::image_leak`]).
+//! 200 Hz and 4 kHz, M ≤ 256) as the longest boxcar (least work per sample) that keeps
+//! that image below −120 dB at the output: the boxcar's attenuation at `2f0`
+//! times the low-pass attenuation where the image aliases after decimation
+//! ([`LockIn::image_leak`]); failing that, the one with the smallest image.
 //!
 //! Real-time budget: per sample one complex rotation shared by all coils and
 //! two multiply-adds per coil (plus the same again for the noise probe);
@@ -30,7 +31,11 @@ use crate::detect::settings::enbw_tau_product;
 /// Highest intermediate rate after the boxcar, Hz.
 pub const MAX_INTERMEDIATE_RATE_HZ: f32 = 4_000.0;
 /// Lowest intermediate rate after the boxcar, Hz.
-pub const MIN_INTERMEDIATE_RATE_HZ: f32 = 400.0;
+pub const MIN_INTERMEDIATE_RATE_HZ: f32 = 200.0;
+/// Largest acceptable 2f0 mixing image at the output (−120 dB).
+pub const IMAGE_LIMIT: f64 = 1e-6;
+/// Longest boxcar, samples.
+pub const MAX_BOXCAR: u32 = 1024;
 
 /// Built lock-in coefficients.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -53,10 +58,18 @@ pub struct LockIn {
 }
 
 /// Lock-in state for `N` coils: main channel and noise probe.
+///
+/// The noise probe runs at the intermediate rate: the boxcar outputs are
+/// shifted by `e^{−j2πΔk/f_i}` (Δ = probe − tone) and low-passed by the same
+/// filter. Boxcar sums of white noise over disjoint blocks are white again, so
+/// the probe sees the same noise density as the tone's channel, at no cost per
+/// input sample.
 #[derive(Clone, Copy, Debug)]
 pub struct LockInState<const N: usize> {
+    /// Boxcar sums of raw codes (scaled when the boxcar ends).
     acc: [C32; N],
-    acc_p: [C32; N],
+    /// Boxcar sums already in input units (f32 input, or codes before a scale change).
+    acc_done: [C32; N],
     lp: [[C32; 4]; N],
     lp_p: [[C32; 4]; N],
     count: u32,
@@ -64,8 +77,8 @@ pub struct LockInState<const N: usize> {
     /// Intermediate samples produced since reset.
     pub produced: u64,
     osc: Nco,
-    osc_p: Nco,
-    synced: bool,
+    probe: Nco,
+    next_sync: u64,
 }
 
 impl LockIn {
@@ -78,15 +91,22 @@ impl LockIn {
         // at the output: boxcar attenuation at 2f0 times the low-pass attenuation
         // at the frequency the image aliases to after decimation.
         let m_lo = libm::ceilf(sample_rate_hz / MAX_INTERMEDIATE_RATE_HZ).max(1.0) as u32;
-        let m_hi = (libm::floorf(sample_rate_hz / MIN_INTERMEDIATE_RATE_HZ) as u32).max(m_lo);
+        let m_hi = (libm::floorf(sample_rate_hz / MIN_INTERMEDIATE_RATE_HZ) as u32).clamp(m_lo, MAX_BOXCAR);
+        // The longest boxcar (least work per sample) whose image stays below
+        // IMAGE_LIMIT; failing that, the one with the smallest image.
         let mut best = (f64::INFINITY, m_lo);
+        let mut longest_ok = None;
         for m in m_lo..=m_hi {
             let trial = Self::with_m(sample_rate_hz, tau, poles, readout_rate_hz, m);
             let leak = trial.image_leak(tone_hz);
             if leak < best.0 * 0.999 {
                 best = (leak, m);
             }
+            if leak <= IMAGE_LIMIT {
+                longest_ok = Some(m);
+            }
         }
+        let best = (best.0, longest_ok.unwrap_or(best.1));
         Self::with_m(sample_rate_hz, tau, poles, readout_rate_hz, best.1)
     }
 
@@ -176,53 +196,112 @@ impl LockIn {
 }
 
 impl<const N: usize> LockInState<N> {
-    /// Fresh state for main tone and probe frequencies (cycles per sample).
+    /// Fresh state: tone at `cycles` per sample, probe offset at `probe_cycles`
+    /// per intermediate sample.
     pub fn new(cycles: f64, probe_cycles: f64) -> Self {
         Self {
             acc: [C32::ZERO; N],
-            acc_p: [C32::ZERO; N],
+            acc_done: [C32::ZERO; N],
             lp: [[C32::ZERO; 4]; N],
             lp_p: [[C32::ZERO; 4]; N],
             count: 0,
             dec: 0,
             produced: 0,
             osc: Nco::new(cycles),
-            osc_p: Nco::new(probe_cycles),
-            synced: false,
+            probe: Nco::new(probe_cycles),
+            next_sync: 0,
         }
     }
 
-    /// Feed one frame (sample index `n`); returns (main, probe) phasors at readout instants.
-    #[inline]
-    pub fn step(&mut self, cfg: &LockIn, n: u64, x: &[f32; N]) -> Option<([C32; N], [C32; N])> {
-        if n & (RESYNC as u64 - 1) == 0 || !self.synced {
+    /// Frames still needed to finish the current boxcar, and the frames that may
+    /// be taken before the oscillator's next exact re-sync.
+    #[inline(always)]
+    fn room(&mut self, cfg: &LockIn, n: u64) -> usize {
+        if n >= self.next_sync {
             self.osc.sync(n);
-            self.osc_p.sync(n);
-            self.synced = true;
+            self.next_sync = (n / RESYNC as u64 + 1) * RESYNC as u64;
         }
-        let r = self.osc.value;
-        let rp = self.osc_p.value;
+        ((cfg.m - self.count) as u64).min(self.next_sync - n) as usize
+    }
+
+    /// Mix raw codes into the boxcar (unscaled; the scale is applied when the
+    /// boxcar ends). Takes at most what [`Self::room`] allows; returns frames taken.
+    /// `or` collects the OR of the codes' one's-complement magnitudes
+    /// (`k ^ (k >> 31)`), a cheap bound on the largest |code| (see `InputScale::code_stats`).
+    ///
+    /// Real-time budget: per channel-sample one load, one conversion, two
+    /// multiply-adds and two logic operations; per frame one complex rotation.
+    /// The sums stay in the FPU's 32 registers (a 64-bit fixed-point version
+    /// needs 16 core registers for four coils and spills; it measured slower).
+    #[inline(always)]
+    pub fn mix_codes(&mut self, cfg: &LockIn, n: u64, frames: &[[i32; N]], or: &mut [u32; N]) -> usize {
+        let take = self.room(cfg, n).min(frames.len());
+        let mut acc = self.acc;
+        let mut bits = *or;
+        let mut o = self.osc.value;
+        let r = self.osc.rotor();
+        for f in &frames[..take] {
+            for c in 0..N {
+                let k = f[c];
+                bits[c] |= (k ^ (k >> 31)) as u32;
+                let x = k as f32;
+                acc[c].re += x * o.re;
+                acc[c].im += x * o.im;
+            }
+            o = o * r;
+        }
+        *or = bits;
+        self.acc = acc;
+        self.osc.value = o;
+        self.count += take as u32;
+        take
+    }
+
+    fn raw_sum(&self, c: usize, scale: f32) -> C32 {
+        self.acc[c].scale(scale)
+    }
+
+    /// Mix one frame already in input units.
+    pub fn mix_scaled(&mut self, cfg: &LockIn, n: u64, x: &[f32; N]) {
+        let _ = self.room(cfg, n);
+        let o = self.osc.value;
         for c in 0..N {
-            let v = x[c];
-            self.acc[c].re += v * r.re;
-            self.acc[c].im += v * r.im;
-            self.acc_p[c].re += v * rp.re;
-            self.acc_p[c].im += v * rp.im;
+            self.acc_done[c].re += x[c] * o.re;
+            self.acc_done[c].im += x[c] * o.im;
         }
         self.osc.step();
-        self.osc_p.step();
         self.count += 1;
-        if self.count < cfg.m {
-            return None;
+    }
+
+    /// Fold the raw boxcar sums into input units with the scales in force (before a scale changes).
+    pub fn fold_scale(&mut self, scale: &[f32; N]) {
+        for c in 0..N {
+            self.acc_done[c] += self.raw_sum(c, scale[c]);
+            self.acc[c] = C32::ZERO;
         }
+    }
+
+    /// True when the boxcar is full.
+    #[inline(always)]
+    pub fn boxcar_full(&self, cfg: &LockIn) -> bool {
+        self.count >= cfg.m
+    }
+
+    /// End the boxcar: scale, low-pass, probe. Returns (main, probe) phasors at readout instants.
+    pub fn end_boxcar(&mut self, cfg: &LockIn, scale: &[f32; N]) -> Option<([C32; N], [C32; N])> {
         self.count = 0;
         let k = 2.0 / cfg.m as f32;
         let np = cfg.poles as usize;
+        if self.produced % RESYNC as u64 == 0 {
+            self.probe.sync(self.produced);
+        }
+        let shift = self.probe.value;
+        self.probe.step();
         for c in 0..N {
-            let mut u = self.acc[c].scale(k);
-            let mut up = self.acc_p[c].scale(k);
+            let mut u = (self.acc_done[c] + self.raw_sum(c, scale[c])).scale(k);
             self.acc[c] = C32::ZERO;
-            self.acc_p[c] = C32::ZERO;
+            self.acc_done[c] = C32::ZERO;
+            let mut up = u * shift;
             for p in 0..np {
                 self.lp[c][p] += (u - self.lp[c][p]).scale(cfg.alpha);
                 u = self.lp[c][p];

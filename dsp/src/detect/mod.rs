@@ -166,7 +166,10 @@ impl<const N: usize> Detector<N> {
                 while li.response(off as f64) > thr && off < 0.25 * f0 {
                     off *= 1.1;
                 }
-                let probe = mains::quiet_neighbour_hz(f0, off.min(0.25 * f0), fmax);
+                // The probe runs at the intermediate rate, so it must sit within ±f_i/2 of the tone.
+                let reach = (0.45 * li.intermediate_rate_hz).min(0.25 * f0);
+                let probe = mains::quiet_neighbour_hz(f0, off.min(reach), (f0 + reach).min(fmax));
+                let probe = if libm::fabsf(probe - f0) > reach { f0 + off.min(reach) } else { probe };
                 let info = DetectorInfo {
                     tone_hz: f0,
                     probe_hz: probe,
@@ -179,8 +182,13 @@ impl<const N: usize> Detector<N> {
                     block_len: li.m,
                     overlap: 1,
                 };
-                (Core::LockIn(li, LockInState::new(cycles, quantise(probe))), info)
+                let probe_cycles = (probe - f0) as f64 / li.intermediate_rate_hz as f64;
+                (Core::LockIn(li, LockInState::new(cycles, probe_cycles)), info)
             }
+        };
+        let probe_cycles = match &core {
+            Core::Block(..) => quantise(info.probe_hz),
+            Core::LockIn(li, _) => (info.probe_hz - f0) as f64 / li.intermediate_rate_hz as f64,
         };
         let mut det = Self {
             settings: *settings,
@@ -195,7 +203,7 @@ impl<const N: usize> Detector<N> {
             mains_flag: false,
             readouts: 0,
             cycles,
-            probe_cycles: nco::step_cycles(nco::phase_step(info.probe_hz as f64 / fs as f64)),
+            probe_cycles,
         };
         det.mains_flag = det.mains().flagged();
         Ok(det)
@@ -225,6 +233,10 @@ impl<const N: usize> Detector<N> {
         if !scale.is_finite() || scale == 0.0 {
             return Err(ConfigError { param: Param::ChannelScale, value: scale, min: f32::MIN_POSITIVE, max: f32::MAX });
         }
+        // Codes mixed so far keep the scale they were taken with.
+        if let Core::LockIn(_, st) = &mut self.core {
+            st.fold_scale(&self.input.scale);
+        }
         self.input.scale[channel] = scale;
         Ok(())
     }
@@ -250,28 +262,68 @@ impl<const N: usize> Detector<N> {
     /// Feed one frame of raw ADC codes.
     #[inline]
     pub fn push_codes(&mut self, codes: &[i32; N]) -> Option<Detection<N>> {
-        let x = self.input.codes(codes, &mut self.stats);
-        self.process(&x)
+        let mut out = None;
+        self.push_codes_block(core::slice::from_ref(codes), |d| out = Some(d));
+        out
+    }
+
+    /// Feed many frames of raw ADC codes; `on` receives every detection they complete.
+    ///
+    /// The fast path: for the lock-in, codes are mixed in a tight loop and scaled
+    /// once per boxcar; full-scale codes are found from a running OR of
+    /// magnitudes, with an exact recount only for blocks that reach half scale.
+    pub fn push_codes_block(&mut self, frames: &[[i32; N]], mut on: impl FnMut(Detection<N>)) {
+        let mut i = 0;
+        while i < frames.len() {
+            let n = self.n;
+            let fs = self.info.sample_rate_hz as f64;
+            let done = match &mut self.core {
+                Core::LockIn(cfg, st) => {
+                    let mut or = [0u32; N];
+                    let took = st.mix_codes(cfg, n, &frames[i..], &mut or);
+                    self.input.code_stats(&frames[i..i + took], &or, &mut self.stats);
+                    self.n += took as u64;
+                    i += took;
+                    if st.boxcar_full(cfg) {
+                        st.end_boxcar(cfg, &self.input.scale).map(|(p, pp)| {
+                            let last = self.n - 1;
+                            (last, last as f64 / fs - self.info.group_delay_s as f64, p, pp)
+                        })
+                    } else {
+                        None
+                    }
+                }
+                Core::Block(cfg, st) => {
+                    let x = self.input.codes(&frames[i], &mut self.stats);
+                    self.n += 1;
+                    i += 1;
+                    st.step(cfg, n, &x).map(|(p, pp, start)| (n, (start as f64 + (cfg.len as f64 - 1.0) / 2.0) / fs, p, pp))
+                }
+            };
+            if let Some((last, t_s, p, pp)) = done {
+                on(self.finish(last, t_s, p, pp));
+            }
+        }
     }
 
     /// Feed one frame of f32 samples.
     #[inline]
     pub fn push(&mut self, frame: &[f32; N]) -> Option<Detection<N>> {
         let x = self.input.floats(frame, &mut self.stats);
-        self.process(&x)
-    }
-
-    fn process(&mut self, x: &[f32; N]) -> Option<Detection<N>> {
         let n = self.n;
         self.n += 1;
         let fs = self.info.sample_rate_hz as f64;
         let (p, pp, t_s) = match &mut self.core {
             Core::Block(cfg, st) => {
-                let (p, pp, start) = st.step(cfg, n, x)?;
+                let (p, pp, start) = st.step(cfg, n, &x)?;
                 (p, pp, (start as f64 + (cfg.len as f64 - 1.0) / 2.0) / fs)
             }
             Core::LockIn(cfg, st) => {
-                let (p, pp) = st.step(cfg, n, x)?;
+                st.mix_scaled(cfg, n, &x);
+                if !st.boxcar_full(cfg) {
+                    return None;
+                }
+                let (p, pp) = st.end_boxcar(cfg, &self.input.scale)?;
                 (p, pp, n as f64 / fs - self.info.group_delay_s as f64)
             }
         };

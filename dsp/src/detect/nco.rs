@@ -47,6 +47,12 @@ impl Nco {
         self.step
     }
 
+    /// The per-sample rotation `e^{−jω}`.
+    #[inline(always)]
+    pub fn rotor(&self) -> C32 {
+        self.rotor
+    }
+
     /// Advance one sample.
     #[inline(always)]
     pub fn step(&mut self) {

@@ -40,6 +40,19 @@ mod target {
             total
         };
         let rep = undertone_firmware::emulated::run(super::FRAMES, &mut clock, &mut |l| hprintln!("{}", l));
+        // Cost table: the Goertzel floor, the detector, the whole receiver, the 6-coil fit.
+        let n = 32_000usize;
+        let g = undertone_firmware::bench::goertzel_floor(n, &mut clock);
+        hprintln!("B goertzel-floor channel_samples={} ticks={}", n, g);
+        let (d, _) = undertone_firmware::bench::detector(n, &mut clock);
+        hprintln!("B detector channel_samples={} ticks={}", n * 4, d);
+        let (r, outs) = undertone_firmware::bench::receiver(n, &mut clock);
+        hprintln!("B receiver channel_samples={} ticks={} readouts={}", n * 4, r, outs);
+        let (mix, ends) = undertone_firmware::bench::lockin_parts(n, &mut clock);
+        hprintln!("B lockin-mix channel_samples={} ticks={}", n * 4, mix);
+        hprintln!("B lockin-boxcar-ends channel_samples={} ticks={}", n * 4, ends);
+        let f = undertone_firmware::bench::six_coil_fit(4, &mut clock);
+        hprintln!("B six-coil-fit fits=4 ticks={}", f);
         hprintln!(
             "E frames={} readouts={} receiver_ticks={} driver_ticks={} gain_steps={} rejected={}",
             rep.frames,

@@ -154,35 +154,51 @@ fn main() -> ! {
     let mut last_pitch = 0.0f32;
     loop {
         let t = now_ms();
-        while let Some(frame) = QUEUE.pop() {
+        // Drain the queue a burst at a time into the receiver's fast path.
+        let mut burst = [[0i32; 4]; 16];
+        let mut k = 0;
+        while k < burst.len() {
+            match QUEUE.pop() {
+                Some(f) => {
+                    burst[k] = f;
+                    k += 1;
+                }
+                None => break,
+            }
+        }
+        if k > 0 {
             sup.good_frame(t);
-            if let Some(r) = app.process(&frame) {
-                let (d, sd) = r.depth().map(|e| (e.depth_m, e.sigma_m)).unwrap_or((f32::NAN, f32::NAN));
-                defmt::info!(
-                    "t={=f64} str={=f32} dB={=f32} snr={=f32} bear={=f32} {=str} depth={=f32}±{=f32} flags={=u32:x}",
-                    r.t_s,
-                    r.strength,
-                    r.strength_db,
-                    r.snr_db,
-                    r.bearing_deg,
-                    r.state.name(),
-                    d,
-                    sd,
-                    r.flags.0
-                );
-                tone = tone_for(&r);
-                if let Some(g) = r.gain_request {
-                    let ch = g.channel as usize;
-                    let stepped = critical_section::with(|cs| {
-                        ADC.borrow_ref_mut(cs).as_mut().and_then(|a| {
-                            let old = a.gains()[ch];
-                            let new = if g.up { old.saturating_add(1).min(7) } else { old.saturating_sub(1) };
-                            (new != old && a.set_gain(ch, new).is_ok()).then_some(new > old)
-                        })
-                    });
-                    if let Some(up) = stepped {
-                        app.gain_changed(ch, if up { 2.0 } else { 0.5 });
-                    }
+        }
+        let mut readouts: heapless::Vec<undertone_dsp::Readout<4>, 2> = heapless::Vec::new();
+        app.process_block(&burst[..k], |r| {
+            let _ = readouts.push(r);
+        });
+        for r in readouts.iter() {
+            let (d, sd) = r.depth().map(|e| (e.depth_m, e.sigma_m)).unwrap_or((f32::NAN, f32::NAN));
+            defmt::info!(
+                "t={=f64} str={=f32} dB={=f32} snr={=f32} bear={=f32} {=str} depth={=f32}±{=f32} flags={=u32:x}",
+                r.t_s,
+                r.strength,
+                r.strength_db,
+                r.snr_db,
+                r.bearing_deg,
+                r.state.name(),
+                d,
+                sd,
+                r.flags.0
+            );
+            tone = tone_for(r);
+            if let Some(g) = r.gain_request {
+                let ch = g.channel as usize;
+                let stepped = critical_section::with(|cs| {
+                    ADC.borrow_ref_mut(cs).as_mut().and_then(|a| {
+                        let old = a.gains()[ch];
+                        let new = if g.up { old.saturating_add(1).min(7) } else { old.saturating_sub(1) };
+                        (new != old && a.set_gain(ch, new).is_ok()).then_some(new > old)
+                    })
+                });
+                if let Some(up) = stepped {
+                    app.gain_changed(ch, if up { 2.0 } else { 0.5 });
                 }
             }
         }

@@ -1,0 +1,138 @@
+//! Cost measurements shared by the emulator image (instructions under QEMU)
+//! and the host (criterion): each function runs one workload over the same
+//! synthetic frames and reports the clock units it spent.
+
+use crate::emulated::{emu_amplitudes, SampleSource, Synthetic};
+use undertone_dsp::detect::goertzel::{Goertzel, GoertzelState};
+use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::field::Source;
+use undertone_dsp::locate::fit::fit;
+use undertone_dsp::{Beacon, Detector, DetectorSettings, Head, Receiver, ReceiverSettings};
+
+/// Frames per workload chunk.
+pub const CHUNK: usize = 256;
+
+/// Sample rate of the measurements, Hz.
+pub const FS: f32 = 16_000.0;
+
+fn frames(n: usize, src: &mut Synthetic<4>, buf: &mut [[i32; 4]; CHUNK]) -> usize {
+    let k = n.min(CHUNK);
+    for f in buf.iter_mut().take(k) {
+        *f = src.next();
+    }
+    k
+}
+
+fn source() -> Synthetic<4> {
+    Synthetic::new(512.0, FS, emu_amplitudes(), 3000)
+}
+
+/// The floor: a plain single-bin Goertzel recurrence on one channel of f32 samples.
+pub fn goertzel_floor(n: usize, clock: &mut dyn FnMut() -> u64) -> u64 {
+    let g = Goertzel::from_cycles_per_sample(512.0 / FS as f64);
+    let mut src = source();
+    let mut buf = [[0i32; 4]; CHUNK];
+    let mut xs = [0f32; CHUNK];
+    let mut st = GoertzelState::default();
+    let mut spent = 0;
+    let mut left = n;
+    while left > 0 {
+        let k = frames(left, &mut src, &mut buf);
+        for i in 0..k {
+            xs[i] = buf[i][0] as f32;
+        }
+        let t0 = clock();
+        for &x in &xs[..k] {
+            g.step(&mut st, x);
+        }
+        spent += clock().wrapping_sub(t0);
+        left -= k;
+    }
+    core::hint::black_box(st);
+    spent
+}
+
+/// The detector as configured by default (4-pole lock-in), 4 channels.
+pub fn detector(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u32) {
+    let s = DetectorSettings::new(FS, Beacon::Hz512);
+    let Ok(mut det) = Detector::<4>::new(&s, InputScale::unity(24)) else { return (0, 0) };
+    let mut src = source();
+    let mut buf = [[0i32; 4]; CHUNK];
+    let (mut spent, mut outs) = (0, 0);
+    let mut left = n;
+    while left > 0 {
+        let k = frames(left, &mut src, &mut buf);
+        let t0 = clock();
+        det.push_codes_block(&buf[..k], |_| outs += 1);
+        spent += clock().wrapping_sub(t0);
+        left -= k;
+    }
+    (spent, outs)
+}
+
+/// The whole receiver (detector and locating maths) on the 4-coil head.
+pub fn receiver(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u32) {
+    let s = ReceiverSettings::new(DetectorSettings::new(FS, Beacon::Hz512), InputScale::unity(24), Head::reference4());
+    let Ok(mut rx) = Receiver::<4>::new(s) else { return (0, 0) };
+    let mut src = source();
+    let mut buf = [[0i32; 4]; CHUNK];
+    let (mut spent, mut outs) = (0, 0);
+    let mut left = n;
+    while left > 0 {
+        let k = frames(left, &mut src, &mut buf);
+        let t0 = clock();
+        rx.push_codes_block(&buf[..k], |_| outs += 1);
+        spent += clock().wrapping_sub(t0);
+        left -= k;
+    }
+    (spent, outs)
+}
+
+/// The 6-coil one-station fit, `reps` times on one reading 0.4 m off the sonde.
+pub fn six_coil_fit(reps: u32, clock: &mut dyn FnMut() -> u64) -> u64 {
+    let head = Head::triads6();
+    let src = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.4, -0.2, -1.5] };
+    let r = head.readings(&src, [0.0; 3], 0.0);
+    let mut a = [0f32; 6];
+    for c in 0..6 {
+        a[c] = r[c] * 1e9;
+    }
+    let sig = [1e-3f32; 6];
+    let t0 = clock();
+    for _ in 0..reps {
+        core::hint::black_box(fit(&head, core::hint::black_box(&a), &sig, None));
+    }
+    clock().wrapping_sub(t0)
+}
+
+/// The lock-in's two parts timed apart: (mixing, boxcar ends) over `n` frames.
+pub fn lockin_parts(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u64) {
+    use undertone_dsp::detect::lockin::{LockIn, LockInState};
+    let cfg = LockIn::new(FS, 512.0, 1.78, 4, 20.0);
+    let mut st = LockInState::<4>::new(512.0 / FS as f64, 0.3);
+    let mut src = source();
+    let mut buf = [[0i32; 4]; CHUNK];
+    let (mut mix, mut ends) = (0u64, 0u64);
+    let mut left = n;
+    let mut at = 0u64;
+    while left > 0 {
+        let k = frames(left, &mut src, &mut buf);
+        let mut i = 0;
+        while i < k {
+            let mut or = [0u32; 4];
+            let t0 = clock();
+            let took = st.mix_codes(&cfg, at, &buf[i..k], &mut or);
+            let t1 = clock();
+            mix += t1.wrapping_sub(t0);
+            i += took;
+            at += took as u64;
+            if st.boxcar_full(&cfg) {
+                let t2 = clock();
+                core::hint::black_box(st.end_boxcar(&cfg, &[1.0; 4]));
+                ends += clock().wrapping_sub(t2);
+            }
+        }
+        left -= k;
+    }
+    (mix, ends)
+}
