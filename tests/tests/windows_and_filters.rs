@@ -76,7 +76,7 @@ fn lockin_lowpass_noise_bandwidth_is_gamma_formula() {
     // Amplifiers: Principles and Applications, 1983 (from memory). Digital cascade within
     // 0.1 % when f_i·τ ≥ 100.
     for (poles, enbw_tau, _) in POLES {
-        let li = LockIn::new(48_000.0, 512.0, 0.4, poles, 20.0);
+        let li = LockIn::new(48_000.0, 512.0, 0.2, poles, 20.0);
         assert!(li.intermediate_rate_hz * li.tau_s >= 100.0);
         let got = li.lowpass_enbw_hz() as f64 * li.tau_s as f64;
         assert!((got / enbw_tau - 1.0).abs() < 1e-3, "{poles} poles: ENBW·τ {got}");
@@ -88,7 +88,7 @@ fn lockin_settling_times_match_table() {
     // 99 % step settling of n cascaded poles (REFERENCES §5, from the Erlang step response),
     // within one intermediate sample.
     for (poles, _, t99) in POLES {
-        let li = LockIn::new(48_000.0, 512.0, 0.4, poles, 20.0);
+        let li = LockIn::new(48_000.0, 512.0, 0.2, poles, 20.0);
         let got = li.settling_s(0.99) as f64;
         let want = t99 * li.tau_s as f64;
         let one = 1.0 / li.intermediate_rate_hz as f64;
