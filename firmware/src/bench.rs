@@ -136,3 +136,30 @@ pub fn lockin_parts(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u64) {
     }
     (mix, ends)
 }
+
+/// The fit as a moving receiver runs it: warm-started from the previous fix,
+/// the head 2 cm further on each time. Returns clock units for `reps` fits.
+pub fn six_coil_fit_warm(reps: u32, clock: &mut dyn FnMut() -> u64) -> u64 {
+    use undertone_dsp::locate::fit::fit_from;
+    let head = Head::triads6();
+    let sig = [1e-3f32; 6];
+    let reading = |x: f32| {
+        let src = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [x, -0.2, -1.5] };
+        let r = head.readings(&src, [0.0; 3], 0.0);
+        let mut a = [0f32; 6];
+        for c in 0..6 {
+            a[c] = r[c] * 1e9;
+        }
+        a
+    };
+    let mut last = Some(fit(&head, &reading(0.4), &sig, None).params);
+    let mut spent = 0;
+    for i in 0..reps {
+        let a = reading(0.4 - 0.02 * (i + 1) as f32);
+        let t0 = clock();
+        let f = fit_from(&head, &a, &sig, None, last);
+        spent += clock().wrapping_sub(t0);
+        last = f.converged.then_some(f.params);
+    }
+    spent
+}

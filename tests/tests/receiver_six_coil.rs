@@ -51,6 +51,7 @@ fn distorted_field_is_flagged_when_calibrated() {
     let clean = head.readings(&src, [0.0; 3], 0.0).map(|v| v * 1e9);
     let mut s = six();
     s.calibration = Calibration { upper_gain: 1.0, strength: k, strength_sigma: 0.0 };
+    s.fit_every = 1; // fit on every readout: the field changes between the two readouts below
     let mut rx = Receiver::new(s).unwrap();
     let out = rx.locate(&detection(&clean, 1e-3));
     assert!(!out.flags.contains(Flags::DISTORTED), "{:?}", out.fix);

@@ -21,6 +21,8 @@ use crate::locate::guidance::offset_from_ratio;
 
 /// Number of fitted parameters.
 pub const P: usize = 6;
+/// Levenberg–Marquardt iterations per start, at most.
+pub const MAX_ITERATIONS: usize = 60;
 
 /// Result of the one-station fix.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -65,6 +67,13 @@ pub fn model<const N: usize>(head: &Head<N>, th: &[f64; P]) -> [f64; N] {
 
 /// Fit readings `a` with noise `sigma`; `known_k` fixes K when calibrated.
 pub fn fit<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], known_k: Option<f32>) -> Fix {
+    fit_from(head, a, sigma, known_k, None)
+}
+
+/// As [`fit`], starting from a previous fix when given (a receiver moving a few
+/// centimetres between readouts is close to it): one descent from there, and
+/// the full set of starts only if that lands poorly (χ² above 4 per reading).
+pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], known_k: Option<f32>, start: Option<[f32; P]>) -> Fix {
     let nfree = if known_k.is_some() { P - 1 } else { P };
     let fail = Fix { params: [0.0; P], sigma: [0.0; P], chi2: f32::INFINITY, dof: N as i32 - nfree as i32, converged: false };
     if N < nfree || a.iter().chain(sigma.iter()).any(|v| !v.is_finite()) || sigma.iter().any(|s| *s <= 0.0) {
@@ -86,7 +95,24 @@ pub fn fit<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], known
     let ahead = offset_from_ratio(rho as f32, h0 as f32) as f64;
     let k0 = -hor * h0 * h0 * h0;
     let mut best: Option<([f64; P], f64)> = None;
-    for (dx, dyaw) in [(ahead, 0.0), (0.0, 0.0), (-ahead, 0.0), (ahead, core::f64::consts::PI), (0.5 * h0, 0.0), (-0.5 * h0, 0.0)] {
+    if let Some(p) = start.filter(|p| p.iter().all(|v| v.is_finite()) && p[2] > 0.0) {
+        let mut th = [0.0f64; P];
+        for i in 0..P {
+            th[i] = p[i] as f64;
+        }
+        if let Some(k) = known_k {
+            th[5] = if th[5] < 0.0 { -(k as f64).abs() } else { (k as f64).abs() };
+        }
+        let chi = lm(head, a, sigma, &mut th, nfree);
+        if chi.is_finite() && chi <= 4.0 * N as f64 {
+            best = Some((th, chi));
+        }
+    }
+    let starts: &[(f64, f64)] = if best.is_some() { &[] } else { &[(1.0, 0.0), (0.0, 0.0), (-1.0, 0.0), (1.0, 1.0), (0.5, 0.0), (-0.5, 0.0)] };
+    for &(kx, flip) in starts {
+        // Offsets along the bearing: the ratio's estimate, none, its mirror, half the depth either way.
+        let dx = if kx.abs() == 1.0 { kx * ahead } else { kx * h0 };
+        let dyaw = flip * core::f64::consts::PI;
         let mut th = [dx * libm::cos(yaw0), dx * libm::sin(yaw0), h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
         if let Some(k) = known_k {
             th[5] = if th[5] < 0.0 { -(k as f64).abs() } else { (k as f64).abs() };
@@ -166,7 +192,7 @@ fn normal<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[
 fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [f64; P], nfree: usize) -> f64 {
     let mut lambda = 1e-3;
     let (_, mut chi) = residuals(head, a, sigma, th);
-    for _ in 0..200 {
+    for _ in 0..MAX_ITERATIONS {
         let (jtj, jtr) = normal(head, a, sigma, th, nfree);
         let mut m = jtj;
         for i in 0..nfree {

@@ -53,6 +53,8 @@ mod target {
         hprintln!("B lockin-boxcar-ends channel_samples={} ticks={}", n * 4, ends);
         let f = undertone_firmware::bench::six_coil_fit(4, &mut clock);
         hprintln!("B six-coil-fit fits=4 ticks={}", f);
+        let w = undertone_firmware::bench::six_coil_fit_warm(8, &mut clock);
+        hprintln!("B six-coil-fit-warm fits=8 ticks={}", w);
         hprintln!(
             "E frames={} readouts={} receiver_ticks={} driver_ticks={} gain_steps={} rejected={}",
             rep.frames,
