@@ -110,12 +110,14 @@ impl<const N: usize> InputScale<N> {
     /// within a factor of two). Blocks that may reach half scale are recounted
     /// exactly (clipping counts and the true peak); for the rest the peak is the
     /// bound `2^(b+1) − 1` of the highest set bit b, and nothing can be clipped.
+    /// (For a 24-bit converter the recount starts at 2^22, half of full scale.)
     pub fn code_stats(&self, frames: &[[i32; N]], or: &[u32; N], stats: &mut ChannelStats<N>) {
         let fsc = self.full_scale_code;
-        let half = (fsc as u32 / 2).max(1);
+        // The highest power of two not above full scale: an OR below it proves every |code| is below it.
+        let top = 1u32 << (31 - (fsc as u32).max(1).leading_zeros());
         let inv = 1.0 / fsc as f32;
         for c in 0..N {
-            let peak = if or[c] >= half {
+            let peak = if or[c] >= top {
                 let mut m = 0u32;
                 for f in frames {
                     let k = f[c];

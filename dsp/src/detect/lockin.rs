@@ -236,7 +236,15 @@ impl<const N: usize> LockInState<N> {
     #[inline(always)]
     pub fn mix_codes(&mut self, cfg: &LockIn, n: u64, frames: &[[i32; N]], or: &mut [u32; N]) -> usize {
         let take = self.room(cfg, n).min(frames.len());
-        let mut acc = self.acc;
+        // Real and imaginary sums as separate arrays: the same operations in the
+        // same order, laid out so a vector unit (where there is one) takes all
+        // coils of a frame at once.
+        let mut re = [0f32; N];
+        let mut im = [0f32; N];
+        for c in 0..N {
+            re[c] = self.acc[c].re;
+            im[c] = self.acc[c].im;
+        }
         let mut bits = *or;
         let mut o = self.osc.value;
         let r = self.osc.rotor();
@@ -245,13 +253,15 @@ impl<const N: usize> LockInState<N> {
                 let k = f[c];
                 bits[c] |= (k ^ (k >> 31)) as u32;
                 let x = k as f32;
-                acc[c].re += x * o.re;
-                acc[c].im += x * o.im;
+                re[c] += x * o.re;
+                im[c] += x * o.im;
             }
             o = o * r;
         }
         *or = bits;
-        self.acc = acc;
+        for c in 0..N {
+            self.acc[c] = C32::new(re[c], im[c]);
+        }
         self.osc.value = o;
         self.count += take as u32;
         take
