@@ -6,9 +6,10 @@
 //! `p_c` with axis `n_c`: `a_c(θ) = K·[3(u·r̂)r̂ − u]·n_c/|r|³` with
 //! `u = (cos α cos ψ, cos α sin ψ, sin α)`, `r = p_c − (x, y, −h)` (Griffiths
 //! eq. 5.89). Levenberg–Marquardt on the noise-weighted residuals
-//! `(a_c(θ) − a_c)/σ_c` with a central-difference Jacobian and fixed-size
-//! normal equations (no allocation), from a start built from the gradient
-//! depth, the bearing and the vertical ratio (several starts, the best kept).
+//! `(a_c(θ) − a_c)/σ_c` with the analytic Jacobian ([`model_jacobian`]) and
+//! fixed-size normal equations (no allocation), all in f32 (the Cortex-M4F's
+//! FPU), from a start built from the gradient depth, the bearing and the
+//! vertical ratio (several starts, the best kept).
 //!
 //! With six coils and six unknowns the fit is exactly determined; a calibrated
 //! strength K removes one unknown and leaves one degree of freedom, so the
@@ -40,29 +41,54 @@ pub struct Fix {
     pub converged: bool,
 }
 
-/// Model readings for parameters θ (evaluated in f64: the fit differentiates it numerically).
-pub fn model<const N: usize>(head: &Head<N>, th: &[f64; P]) -> [f64; N] {
-    let (sy, cy) = (libm::sin(th[3]), libm::cos(th[3]));
-    let (sp, cp) = (libm::sin(th[4]), libm::cos(th[4]));
+/// The float type of the fit's arithmetic.
+type F = f32;
+
+/// Model readings for parameters θ and their Jacobian ∂a_c/∂θ_k (analytic).
+///
+/// With `r = p_c − s`, `d = |r|`, `q = u·r`, `m = n·r`, `w = n·u`, the unit-moment
+/// reading is `f = 3qm/d⁵ − w/d³`; `∂f/∂r = 3(m·u + q·n)/d⁵ − 15qm·r/d⁷ + 3w·r/d⁵`
+/// and `∂f/∂u = 3m·r/d⁵ − n/d³`. Since `s = (x, y, −h)`, `∂r/∂x = −x̂`,
+/// `∂r/∂y = −ŷ`, `∂r/∂h = +ẑ`; `u(ψ, α)` gives `∂u/∂ψ = (−cα sψ, cα cψ, 0)` and
+/// `∂u/∂α = (−sα cψ, −sα sψ, cα)`. Each reading is `K·g_c·f`.
+pub fn model_jacobian<const N: usize>(head: &Head<N>, th: &[F; P]) -> ([F; N], [[F; P]; N]) {
+    let (sy, cy) = (libm::sinf(th[3]), libm::cosf(th[3]));
+    let (sp, cp) = (libm::sinf(th[4]), libm::cosf(th[4]));
     let u = [cp * cy, cp * sy, sp];
+    let du_dpsi = [-cp * sy, cp * cy, 0.0];
+    let du_dalpha = [-sp * cy, -sp * sy, cp];
     let src = [th[0], th[1], -th[2]];
+    let dot = |a: [F; 3], b: [F; 3]| a[0] * b[0] + a[1] * b[1] + a[2] * b[2];
     let mut out = [0.0; N];
+    let mut jac = [[0.0; P]; N];
     for (c, coil) in head.coils.iter().enumerate() {
-        let r = [coil.pos_m[0] as f64 - src[0], coil.pos_m[1] as f64 - src[1], coil.pos_m[2] as f64 - src[2]];
-        let d2 = r[0] * r[0] + r[1] * r[1] + r[2] * r[2];
-        let d = libm::sqrt(d2);
-        if !(d > 1e-9) {
+        let r = [coil.pos_m[0] - src[0], coil.pos_m[1] - src[1], coil.pos_m[2] - src[2]];
+        let d2 = dot(r, r);
+        if !(d2 > 1e-12) {
             continue;
         }
-        let ur = (u[0] * r[0] + u[1] * r[1] + u[2] * r[2]) / d;
+        let d = libm::sqrtf(d2);
+        let (d3, d5) = (d2 * d, d2 * d2 * d);
+        let d7 = d5 * d2;
         let n = coil.axis;
-        let mut b_n = 0.0;
-        for k in 0..3 {
-            b_n += (3.0 * ur * r[k] / d - u[k]) * n[k] as f64;
+        let (q, m, w) = (dot(u, r), dot(n, r), dot(n, u));
+        let f = 3.0 * q * m / d5 - w / d3;
+        let kg = th[5] * coil.gain;
+        out[c] = kg * f;
+        let mut df_dr = [0.0; 3];
+        let mut df_du = [0.0; 3];
+        for i in 0..3 {
+            df_dr[i] = 3.0 * (m * u[i] + q * n[i]) / d5 - 15.0 * q * m * r[i] / d7 + 3.0 * w * r[i] / d5;
+            df_du[i] = 3.0 * m * r[i] / d5 - n[i] / d3;
         }
-        out[c] = th[5] * b_n / (d2 * d) * coil.gain as f64;
+        jac[c] = [-kg * df_dr[0], -kg * df_dr[1], kg * df_dr[2], kg * dot(df_du, du_dpsi), kg * dot(df_du, du_dalpha), coil.gain * f];
     }
-    out
+    (out, jac)
+}
+
+/// Model readings for parameters θ.
+pub fn model<const N: usize>(head: &Head<N>, th: &[F; P]) -> [F; N] {
+    model_jacobian(head, th).0
 }
 
 /// Fit readings `a` with noise `sigma`; `known_k` fixes K when calibrated.
@@ -81,41 +107,41 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
     }
     // Start: gradient depth from the along-coil pair, bearing, ratio.
     let r = head.roles;
-    let get = |i: Option<u8>| i.map(|k| a[k as usize] as f64).unwrap_or(0.0);
+    let get = |i: Option<u8>| i.map(|k| a[k as usize] as F).unwrap_or(0.0);
     let lo = [get(r.lower[0]), get(r.lower[1]), get(r.lower[2])];
     let up = [get(r.upper[0]), get(r.upper[1]), get(r.upper[2])];
-    let nlo = libm::sqrt(lo[0] * lo[0] + lo[1] * lo[1] + lo[2] * lo[2]);
-    let nup = libm::sqrt(up[0] * up[0] + up[1] * up[1] + up[2] * up[2]);
-    let s = head.spacing_m().unwrap_or(0.4) as f64;
+    let nlo = libm::sqrtf(lo[0] * lo[0] + lo[1] * lo[1] + lo[2] * lo[2]);
+    let nup = libm::sqrtf(up[0] * up[0] + up[1] * up[1] + up[2] * up[2]);
+    let s = head.spacing_m().unwrap_or(0.4) as F;
     let ratio = if nup > 0.0 { nlo / nup } else { 2.0 };
-    let h0 = (s / (libm::cbrt(ratio) - 1.0)).clamp(0.2, 8.0);
-    let hor = libm::sqrt(lo[0] * lo[0] + lo[1] * lo[1]);
-    let yaw0 = libm::atan2(lo[1], lo[0]);
+    let h0 = (s / (libm::cbrtf(ratio) - 1.0)).clamp(0.2, 8.0);
+    let hor = libm::sqrtf(lo[0] * lo[0] + lo[1] * lo[1]);
+    let yaw0 = libm::atan2f(lo[1], lo[0]);
     let rho = if hor > 0.0 { lo[2] / hor } else { 0.0 };
-    let ahead = offset_from_ratio(rho as f32, h0 as f32) as f64;
+    let ahead = offset_from_ratio(rho as f32, h0 as f32) as F;
     let k0 = -hor * h0 * h0 * h0;
-    let mut best: Option<([f64; P], f64)> = None;
+    let mut best: Option<([F; P], F)> = None;
     if let Some(p) = start.filter(|p| p.iter().all(|v| v.is_finite()) && p[2] > 0.0) {
-        let mut th = [0.0f64; P];
+        let mut th = [0.0 as F; P];
         for i in 0..P {
-            th[i] = p[i] as f64;
+            th[i] = p[i] as F;
         }
         if let Some(k) = known_k {
-            th[5] = if th[5] < 0.0 { -(k as f64).abs() } else { (k as f64).abs() };
+            th[5] = if th[5] < 0.0 { -(k as F).abs() } else { (k as F).abs() };
         }
         let chi = lm(head, a, sigma, &mut th, nfree);
-        if chi.is_finite() && chi <= 4.0 * N as f64 {
+        if chi.is_finite() && chi <= 4.0 * N as F {
             best = Some((th, chi));
         }
     }
-    let starts: &[(f64, f64)] = if best.is_some() { &[] } else { &[(1.0, 0.0), (0.0, 0.0), (-1.0, 0.0), (1.0, 1.0), (0.5, 0.0), (-0.5, 0.0)] };
+    let starts: &[(F, F)] = if best.is_some() { &[] } else { &[(1.0, 0.0), (0.0, 0.0), (-1.0, 0.0), (1.0, 1.0), (0.5, 0.0), (-0.5, 0.0)] };
     for &(kx, flip) in starts {
         // Offsets along the bearing: the ratio's estimate, none, its mirror, half the depth either way.
         let dx = if kx.abs() == 1.0 { kx * ahead } else { kx * h0 };
-        let dyaw = flip * core::f64::consts::PI;
-        let mut th = [dx * libm::cos(yaw0), dx * libm::sin(yaw0), h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
+        let dyaw = flip * core::f32::consts::PI;
+        let mut th = [dx * libm::cosf(yaw0), dx * libm::sinf(yaw0), h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
         if let Some(k) = known_k {
-            th[5] = if th[5] < 0.0 { -(k as f64).abs() } else { (k as f64).abs() };
+            th[5] = if th[5] < 0.0 { -(k as F).abs() } else { (k as F).abs() };
         }
         let chi = lm(head, a, sigma, &mut th, nfree);
         if chi.is_finite() && best.map(|b| chi < b.1).unwrap_or(true) {
@@ -124,10 +150,10 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
     }
     let Some((mut th, chi2)) = best else { return fail };
     // Canonical form: yaw in (−π/2, π/2], flipping the axis and K together.
-    let two_pi = 2.0 * core::f64::consts::PI;
-    th[3] = th[3] - two_pi * libm::round(th[3] / two_pi);
-    if th[3] > core::f64::consts::FRAC_PI_2 || th[3] <= -core::f64::consts::FRAC_PI_2 {
-        th[3] -= core::f64::consts::PI * th[3].signum();
+    let two_pi = 2.0 * core::f32::consts::PI;
+    th[3] = th[3] - two_pi * libm::roundf(th[3] / two_pi);
+    if th[3] > core::f32::consts::FRAC_PI_2 || th[3] <= -core::f32::consts::FRAC_PI_2 {
+        th[3] -= core::f32::consts::PI * th[3].signum();
         th[4] = -th[4];
         th[5] = -th[5];
     }
@@ -135,7 +161,7 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
     let mut sig = [0.0f32; P];
     if let Some(inv) = invert(&jtj, nfree) {
         for i in 0..nfree {
-            sig[i] = libm::sqrt(inv[i][i].max(0.0)) as f32;
+            sig[i] = libm::sqrtf(inv[i][i].max(0.0)) as f32;
         }
     }
     let mut params = [0.0f32; P];
@@ -146,34 +172,28 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
     Fix { params, sigma: sig, chi2: chi2 as f32, dof: N as i32 - nfree as i32, converged: ok }
 }
 
-fn residuals<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[f64; P]) -> ([f64; N], f64) {
+fn residuals<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[F; P]) -> ([F; N], F) {
     let m = model(head, th);
     let mut r = [0.0; N];
     let mut chi = 0.0;
     for c in 0..N {
-        r[c] = (m[c] - a[c] as f64) / sigma[c] as f64;
+        r[c] = (m[c] - a[c] as F) / sigma[c] as F;
         chi += r[c] * r[c];
     }
     (r, chi)
 }
 
-fn jacobian<const N: usize>(head: &Head<N>, sigma: &[f32; N], th: &[f64; P], nfree: usize) -> [[f64; P]; N] {
-    let mut j = [[0.0; P]; N];
-    for k in 0..nfree {
-        let step = 1e-6 * libm::fabs(th[k]).max(if k == 5 { 1e-30 } else { 1e-1 });
-        let mut tp = *th;
-        let mut tm = *th;
-        tp[k] += step;
-        tm[k] -= step;
-        let (mp, mm) = (model(head, &tp), model(head, &tm));
-        for c in 0..N {
-            j[c][k] = (mp[c] - mm[c]) / (2.0 * step) / sigma[c] as f64;
+fn jacobian<const N: usize>(head: &Head<N>, sigma: &[f32; N], th: &[F; P], nfree: usize) -> [[F; P]; N] {
+    let (_, mut j) = model_jacobian(head, th);
+    for c in 0..N {
+        for k in 0..P {
+            j[c][k] = if k < nfree { j[c][k] / sigma[c] as F } else { 0.0 };
         }
     }
     j
 }
 
-fn normal<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[f64; P], nfree: usize) -> ([[f64; P]; P], [f64; P]) {
+fn normal<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[F; P], nfree: usize) -> ([[F; P]; P], [F; P]) {
     let j = jacobian(head, sigma, th, nfree);
     let (r, _) = residuals(head, a, sigma, th);
     let mut jtj = [[0.0; P]; P];
@@ -189,7 +209,7 @@ fn normal<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[
     (jtj, jtr)
 }
 
-fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [f64; P], nfree: usize) -> f64 {
+fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [F; P], nfree: usize) -> F {
     let mut lambda = 1e-3;
     let (_, mut chi) = residuals(head, a, sigma, th);
     for _ in 0..MAX_ITERATIONS {
@@ -202,7 +222,7 @@ fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [
         for i in 0..nfree {
             rhs[i] = -jtr[i];
         }
-        let Some(delta) = solve(&m, &rhs, nfree) else { return f64::INFINITY };
+        let Some(delta) = solve(&m, &rhs, nfree) else { return F::INFINITY };
         let mut trial = *th;
         for i in 0..nfree {
             trial[i] += delta[i];
@@ -212,11 +232,11 @@ fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [
         }
         let (_, c2) = residuals(head, a, sigma, &trial);
         if c2.is_finite() && c2 < chi {
-            let rel = (chi - c2) / chi.max(1e-300);
+            let rel = (chi - c2) / chi.max(1e-30);
             *th = trial;
             chi = c2;
             lambda = (lambda * 0.3).max(1e-12);
-            if rel < 1e-14 || chi < 1e-20 {
+            if rel < 1e-7 || chi < 1e-20 {
                 break;
             }
         } else {
@@ -229,12 +249,12 @@ fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [
     chi
 }
 
-fn solve(m: &[[f64; P]; P], b: &[f64; P], n: usize) -> Option<[f64; P]> {
+fn solve(m: &[[F; P]; P], b: &[F; P], n: usize) -> Option<[F; P]> {
     let mut a = *m;
     let mut x = *b;
     for col in 0..n {
-        let piv = (col..n).max_by(|&i, &j| libm::fabs(a[i][col]).partial_cmp(&libm::fabs(a[j][col])).unwrap_or(core::cmp::Ordering::Equal))?;
-        if !(libm::fabs(a[piv][col]) > 1e-300) {
+        let piv = (col..n).max_by(|&i, &j| libm::fabsf(a[i][col]).partial_cmp(&libm::fabsf(a[j][col])).unwrap_or(core::cmp::Ordering::Equal))?;
+        if !(libm::fabsf(a[piv][col]) > 1e-30) {
             return None;
         }
         a.swap(col, piv);
@@ -260,7 +280,7 @@ fn solve(m: &[[f64; P]; P], b: &[f64; P], n: usize) -> Option<[f64; P]> {
     Some(x)
 }
 
-fn invert(m: &[[f64; P]; P], n: usize) -> Option<[[f64; P]; P]> {
+fn invert(m: &[[F; P]; P], n: usize) -> Option<[[F; P]; P]> {
     let mut out = [[0.0; P]; P];
     for c in 0..n {
         let mut e = [0.0; P];
