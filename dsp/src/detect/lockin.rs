@@ -233,8 +233,7 @@ impl<const N: usize> LockInState<N> {
     /// multiply-adds and two logic operations; per frame one complex rotation.
     /// The sums stay in the FPU's 32 registers (a 64-bit fixed-point version
     /// needs 16 core registers for four coils and spills; it measured slower).
-    /// Kept out of line so the loop gets the registers to itself.
-    #[inline(never)]
+    #[inline(always)]
     pub fn mix_codes(&mut self, cfg: &LockIn, n: u64, frames: &[[i32; N]], or: &mut [u32; N]) -> usize {
         let take = self.room(cfg, n).min(frames.len());
         // Real and imaginary sums as separate arrays: the same operations in the
