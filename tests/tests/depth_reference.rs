@@ -187,3 +187,20 @@ fn field_vector_bearing_and_sign() {
         assert!(f.quadrature < 1e-6);
     }
 }
+
+#[test]
+fn peak_in_line_null_crossed_common_practice() {
+    // Common practice of the trade (no published source): the signal peaks when coil and sonde
+    // axes lie in one plane and nulls when they are perpendicular; depth is read with the receiver
+    // in the peak orientation over the sonde. Checked here against the dipole model (eq. 5.89):
+    // over a level sonde, turning the handle, the along coil reads |B|·cos(heading).
+    let head = Head::reference4();
+    let src = level_sonde(1.5, 0.0);
+    let inline = head.readings(&src, [0.0; 3], 0.0)[0].abs();
+    for deg in [15.0f32, 30.0, 60.0, 89.0] {
+        let r = head.readings(&src, [0.0; 3], deg.to_radians())[0].abs();
+        assert!(r < inline && (r / inline - deg.to_radians().cos()).abs() < 1e-4, "{deg}°: {}", r / inline);
+    }
+    let crossed = head.readings(&src, [0.0; 3], std::f32::consts::FRAC_PI_2)[0].abs();
+    assert!(crossed < 1e-6 * inline, "crossed reads {}", crossed / inline);
+}

@@ -56,6 +56,7 @@ fn noisy_errors_within_1_5_times_cramer_rao() {
     }
     for i in 0..5 {
         let rms = (sq[i] / trials as f64).sqrt();
+        println!("fit parameter {i}: rms error {rms:.3e}, Cramér–Rao bound {:.3e}, ratio {:.3}", bound[i], rms / bound[i] as f64);
         assert!(rms <= 1.5 * bound[i] as f64, "param {i}: rms {rms} bound {}", bound[i]);
         assert!(rms >= 0.5 * bound[i] as f64, "param {i}: rms {rms} bound {} (bound not credible)", bound[i]);
     }
