@@ -12,8 +12,8 @@ use undertone_dsp::{Beacon, Detector, DetectorSettings, Head, Receiver, Receiver
 /// Frames per workload chunk.
 pub const CHUNK: usize = 256;
 
-/// Sample rate of the measurements, Hz.
-pub const FS: f32 = 16_000.0;
+/// Sample rate of the measurements, Hz (the reference board's 32 kSPS).
+pub const FS: f32 = 32_000.0;
 
 fn frames(n: usize, src: &mut Synthetic<4>, buf: &mut [[i32; 4]; CHUNK]) -> usize {
     let k = n.min(CHUNK);

@@ -32,7 +32,7 @@ pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, o
     match recommend(&rows, max_lag_m) {
         Some(b) => writeln!(
             out,
-            "recommended: {b} Hz, the narrowest bandwidth with peak lag within {max_lag_m} m, false peaks in at most {:.0} % of trials and depth bias within ±{} %",
+            "recommended: {b} Hz, the narrowest bandwidth with peak lag within {max_lag_m} m, false peaks in at most {:.0} % of trials, a depth in at least half of them and depth bias within ±{} %",
             100.0 * crate::sweep::MAX_FALSE_PEAK_RATE,
             crate::sweep::MAX_DEPTH_BIAS_PCT
         )

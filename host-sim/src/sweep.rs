@@ -15,8 +15,8 @@
 //!   20 %, so such a peak is made by noise or interference.
 //!
 //! The recommendation is the narrowest bandwidth whose mean |lag| stays within
-//! the stated limit, with no more than 10 % of trials showing a false peak and
-//! the depth bias within ±3 %. Trials run in parallel on all cores (rayon).
+//! the stated limit, with no more than 10 % of trials showing a false peak, a
+//! depth in at least half of the trials and the depth bias within ±3 %. Trials run in parallel on all cores (rayon).
 
 use crate::error::{Result, SimError};
 use crate::motion::segment_duration;
@@ -163,7 +163,7 @@ pub fn recommend(rows: &[SweepRow], max_lag_m: f64) -> Option<f64> {
     rows.iter()
         .filter(|r| r.lag_m.map(|l| l.abs() <= max_lag_m).unwrap_or(false))
         .filter(|r| r.false_peak_rate <= MAX_FALSE_PEAK_RATE)
-        .filter(|r| r.depth_bias_pct.map(|b| b.abs() <= MAX_DEPTH_BIAS_PCT).unwrap_or(true))
+        .filter(|r| r.with_depth * 2 >= r.trials && r.depth_bias_pct.map(|b| b.abs() <= MAX_DEPTH_BIAS_PCT).unwrap_or(false))
         .map(|r| r.bandwidth_hz)
         .fold(None, |m: Option<f64>, b| Some(m.map_or(b, |m| m.min(b))))
 }

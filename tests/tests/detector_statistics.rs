@@ -126,3 +126,35 @@ fn amplitude_variance_reaches_cramer_rao_bound() {
     assert!((v / crb - 1.0).abs() < 0.1, "var {v} CRB {crb} ratio {}", v / crb);
     assert!((m - a).abs() < 0.01, "mean amplitude {m}");
 }
+
+#[test]
+fn noise_probe_is_not_fooled_by_strong_mains() {
+    // Mains 80 dB above the noise in the detection bandwidth at 50 Hz, harmonics falling by 0.75 each
+    // (as in the deep-lateral example; the 10th, next to 512 Hz, still 43 dB up), up to 3 kHz: the
+    // noise σ the probe reports stays the white noise's 2σw²B/fs (within 30 %), because the probe
+    // sits where the harmonics, folded by the decimation, leak least.
+    let fs = 48_000.0f32;
+    for bw in [1.0f32, 2.4] {
+        let mut s = DetectorSettings::new(fs, Beacon::Hz512);
+        s.bandwidth_hz = bw;
+        let mut det = Detector::<1>::new(&s, unit()).unwrap();
+        let b = det.info().bandwidth_hz as f64;
+        let sigma_w = 1.0;
+        let sigma_c = (2.0 * sigma_w * sigma_w * b / fs as f64).sqrt();
+        let amp = 1.0e4 * sigma_c;
+        let mut noise = Noise::new(8, sigma_w);
+        let mut last = None;
+        for n in 0..(fs as usize * 12) {
+            let t = n as f64 / fs as f64;
+            let mut v = noise.sample();
+            for h in 1..=60 {
+                v += amp * 0.75f64.powi(h - 1) * (2.0 * std::f64::consts::PI * 50.0 * h as f64 * t + 0.7 * h as f64).cos();
+            }
+            if let Some(d) = det.push(&[v as f32]) {
+                last = Some(d);
+            }
+        }
+        let got = last.unwrap().noise_sigma[0] as f64;
+        assert!((got / sigma_c - 1.0).abs() < 0.3, "bw {bw}: probe σ {got} want {sigma_c} (probe at {} Hz)", det.info().probe_hz);
+    }
+}

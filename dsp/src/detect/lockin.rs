@@ -15,9 +15,11 @@
 //! the noise variance `2·σw²·B/fs` for white input noise of variance σw².
 //! Mixing a real tone also leaves an image at `−2f0`. `M` is chosen (f_i between
 //! 200 Hz and 4 kHz, M ≤ 256) as the longest boxcar (least work per sample) that keeps
-//! that image below −120 dB at the output: the boxcar's attenuation at `2f0`
-//! times the low-pass attenuation where the image aliases after decimation
-//! ([`LockIn::image_leak`]); failing that, the one with the smallest image.
+//! that image below −120 dB at the output (the boxcar's attenuation at `2f0`
+//! times the low-pass attenuation where the image aliases after decimation,
+//! [`LockIn::image_leak`]) and every 50/60 Hz harmonic that folds in through
+//! the decimation below −110 dB ([`LockIn::folded_mains_leak`]); failing that,
+//! the one with the smallest image.
 //!
 //! Real-time budget: per sample one complex rotation shared by all coils and
 //! two multiply-adds per coil (plus the same again for the noise probe);
@@ -34,6 +36,8 @@ pub const MAX_INTERMEDIATE_RATE_HZ: f32 = 4_000.0;
 pub const MIN_INTERMEDIATE_RATE_HZ: f32 = 200.0;
 /// Largest acceptable 2f0 mixing image at the output (−120 dB).
 pub const IMAGE_LIMIT: f64 = 1e-6;
+/// Largest response to a mains harmonic that folds in through the decimation (−110 dB).
+pub const FOLDED_MAINS_LIMIT: f64 = 3.2e-6;
 /// Longest boxcar, samples.
 pub const MAX_BOXCAR: u32 = 1024;
 
@@ -93,7 +97,8 @@ impl LockIn {
         let m_lo = libm::ceilf(sample_rate_hz / MAX_INTERMEDIATE_RATE_HZ).max(1.0) as u32;
         let m_hi = (libm::floorf(sample_rate_hz / MIN_INTERMEDIATE_RATE_HZ) as u32).clamp(m_lo, MAX_BOXCAR);
         // The longest boxcar (least work per sample) whose image stays below
-        // IMAGE_LIMIT; failing that, the one with the smallest image.
+        // IMAGE_LIMIT and which lets no folded mains harmonic through above
+        // FOLDED_MAINS_LIMIT; failing that, the one with the smallest image.
         let mut best = (f64::INFINITY, m_lo);
         let mut longest_ok = None;
         for m in m_lo..=m_hi {
@@ -102,7 +107,7 @@ impl LockIn {
             if leak < best.0 * 0.999 {
                 best = (leak, m);
             }
-            if leak <= IMAGE_LIMIT {
+            if leak <= IMAGE_LIMIT && trial.folded_mains_leak(tone_hz) <= FOLDED_MAINS_LIMIT {
                 longest_ok = Some(m);
             }
         }
@@ -172,12 +177,79 @@ impl LockIn {
         boxcar * self.lowpass_response(alias)
     }
 
+    /// The largest response to a 50 Hz or 60 Hz harmonic within 2 kHz of the tone
+    /// that lies beyond ±f_i/2 (so reaches the low-pass only folded by the
+    /// decimation); the neighbours inside ±f_i/2 are the bandwidth's business.
+    pub fn folded_mains_leak(&self, tone_hz: f32) -> f64 {
+        let tone = tone_hz as f64;
+        let half = self.intermediate_rate_hz as f64 / 2.0;
+        let mut worst = 0.0f64;
+        for grid in [50.0f64, 60.0] {
+            let lo = libm::ceil((tone - 2000.0).max(grid) / grid) as i64;
+            let hi = libm::floor((tone + 2000.0) / grid) as i64;
+            for n in lo..=hi {
+                let off = n as f64 * grid - tone;
+                if libm::fabs(off) > half {
+                    worst = worst.max(self.response(off));
+                }
+            }
+        }
+        worst
+    }
+
     /// |H| of the low-pass cascade at `f_hz` (at the intermediate rate).
     pub fn lowpass_response(&self, f_hz: f64) -> f64 {
         let w = 2.0 * core::f64::consts::PI * f_hz / self.intermediate_rate_hz as f64;
         let a = 1.0 - self.alpha as f64;
         let den = libm::sqrt(1.0 - 2.0 * a * libm::cos(w) + a * a);
         libm::pow(self.alpha as f64 / den, self.poles as f64)
+    }
+
+    /// Response of the noise probe (offset `delta_hz` from the tone, run at the
+    /// intermediate rate) to a component `offset_hz` from the tone: the boxcar
+    /// at `offset_hz`, then the low-pass at `offset_hz − delta_hz`, periodic in
+    /// f_i because it runs after decimation.
+    pub fn probe_response(&self, offset_hz: f64, delta_hz: f64) -> f64 {
+        let fs = self.sample_rate_hz as f64;
+        let m = self.m as f64;
+        let x = core::f64::consts::PI * offset_hz / fs;
+        let boxcar = if libm::fabs(libm::sin(x)) < 1e-15 { 1.0 } else { libm::fabs(libm::sin(m * x) / (m * libm::sin(x))) };
+        boxcar * self.lowpass_response(offset_hz - delta_hz)
+    }
+
+    /// The probe offset (Hz, either side of the tone, `min_hz` to `reach_hz` away,
+    /// at most `max_above_hz` above it) that lets the least of any 50 Hz or 60 Hz
+    /// harmonic within 2 kHz through, every harmonic weighted alike (their
+    /// strengths are not known).
+    pub fn quietest_probe_offset_hz(&self, tone_hz: f32, min_hz: f32, reach_hz: f32, max_above_hz: f32) -> f32 {
+        let tone = tone_hz as f64;
+        let leak = |delta: f64| {
+            let mut worst = 0.0f64;
+            for grid in [50.0f64, 60.0] {
+                let lo = libm::ceil((tone - 2000.0).max(grid) / grid) as i64;
+                let hi = libm::floor((tone + 2000.0) / grid) as i64;
+                for n in lo..=hi {
+                    worst = worst.max(self.probe_response(n as f64 * grid - tone, delta));
+                }
+            }
+            worst
+        };
+        let step = ((reach_hz - min_hz) / 32.0).max(0.25);
+        let mut best = (f64::INFINITY, min_hz);
+        let mut d = min_hz;
+        while d <= reach_hz + 1e-3 {
+            for cand in [d, -d] {
+                if cand > max_above_hz || tone_hz + cand <= 0.0 {
+                    continue;
+                }
+                let l = leak(cand as f64);
+                if l < best.0 * 0.999 {
+                    best = (l, cand);
+                }
+            }
+            d += step;
+        }
+        best.1
     }
 
     /// Normalised magnitude response at `offset_hz` from the tone (boxcar × low-pass).
@@ -297,6 +369,24 @@ impl<const N: usize> LockInState<N> {
         self.count >= cfg.m
     }
 
+    #[inline(always)]
+    fn filter_all<const P: usize>(&mut self, us: &[C32; N], shift: C32, a: f32) {
+        #[inline(always)]
+        fn cascade<const P: usize>(st: &mut [C32; 4], mut u: C32, a: f32) {
+            let mut s = *st;
+            for p in 0..P {
+                s[p].re += a * (u.re - s[p].re);
+                s[p].im += a * (u.im - s[p].im);
+                u = s[p];
+            }
+            *st = s;
+        }
+        for c in 0..N {
+            cascade::<P>(&mut self.lp[c], us[c], a);
+            cascade::<P>(&mut self.lp_p[c], us[c] * shift, a);
+        }
+    }
+
     /// End the boxcar: scale, low-pass, probe. Returns (main, probe) phasors at readout instants.
     pub fn end_boxcar(&mut self, cfg: &LockIn, scale: &[f32; N]) -> Option<([C32; N], [C32; N])> {
         self.count = 0;
@@ -307,17 +397,18 @@ impl<const N: usize> LockInState<N> {
         }
         let shift = self.probe.value;
         self.probe.step();
+        let mut us = [C32::ZERO; N];
         for c in 0..N {
-            let mut u = (self.acc_done[c] + self.raw_sum(c, scale[c])).scale(k);
+            us[c] = (self.acc_done[c] + self.raw_sum(c, scale[c])).scale(k);
             self.acc[c] = C32::ZERO;
             self.acc_done[c] = C32::ZERO;
-            let mut up = u * shift;
-            for p in 0..np {
-                self.lp[c][p] += (u - self.lp[c][p]).scale(cfg.alpha);
-                u = self.lp[c][p];
-                self.lp_p[c][p] += (up - self.lp_p[c][p]).scale(cfg.alpha);
-                up = self.lp_p[c][p];
-            }
+        }
+        // The pole count as a constant, so each cascade runs in registers.
+        match np {
+            1 => self.filter_all::<1>(&us, shift, cfg.alpha),
+            2 => self.filter_all::<2>(&us, shift, cfg.alpha),
+            3 => self.filter_all::<3>(&us, shift, cfg.alpha),
+            _ => self.filter_all::<4>(&us, shift, cfg.alpha),
         }
         self.produced += 1;
         self.dec += 1;

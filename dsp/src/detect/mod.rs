@@ -166,10 +166,10 @@ impl<const N: usize> Detector<N> {
                 while li.response(off as f64) > thr && off < 0.25 * f0 {
                     off *= 1.1;
                 }
-                // The probe runs at the intermediate rate, so it must sit within ±f_i/2 of the tone.
+                // The probe runs at the intermediate rate, so it sits within ±f_i/2 of the
+                // tone, where mains harmonics from far away fold in after decimation.
                 let reach = (0.45 * li.intermediate_rate_hz).min(0.25 * f0);
-                let probe = mains::quiet_neighbour_hz(f0, off.min(reach), (f0 + reach).min(fmax));
-                let probe = if libm::fabsf(probe - f0) > reach { f0 + off.min(reach) } else { probe };
+                let probe = f0 + li.quietest_probe_offset_hz(f0, off.min(reach), reach, (fmax - f0).max(0.0));
                 let info = DetectorInfo {
                     tone_hz: f0,
                     probe_hz: probe,
