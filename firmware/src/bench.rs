@@ -52,10 +52,8 @@ pub fn goertzel_floor(n: usize, clock: &mut dyn FnMut() -> u64) -> u64 {
     spent
 }
 
-/// The detector as configured by default (4-pole lock-in), 4 channels.
-pub fn detector(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u32) {
-    let s = DetectorSettings::new(FS, Beacon::Hz512);
-    let Ok(mut det) = Detector::<4>::new(&s, InputScale::unity(24)) else { return (0, 0) };
+/// Time `push` over `n` synthetic frames fed in chunks; returns (clock units, readouts).
+fn timed_chunks(n: usize, clock: &mut dyn FnMut() -> u64, mut push: impl FnMut(&[[i32; 4]], &mut u32)) -> (u64, u32) {
     let mut src = source();
     let mut buf = [[0i32; 4]; CHUNK];
     let (mut spent, mut outs) = (0, 0);
@@ -63,29 +61,25 @@ pub fn detector(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u32) {
     while left > 0 {
         let k = frames(left, &mut src, &mut buf);
         let t0 = clock();
-        det.push_codes_block(&buf[..k], |_| outs += 1);
+        push(&buf[..k], &mut outs);
         spent += clock().wrapping_sub(t0);
         left -= k;
     }
     (spent, outs)
 }
 
+/// The detector as configured by default (4-pole lock-in), 4 channels.
+pub fn detector(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u32) {
+    let s = DetectorSettings::new(FS, Beacon::Hz512);
+    let Ok(mut det) = Detector::<4>::new(&s, InputScale::unity(24)) else { return (0, 0) };
+    timed_chunks(n, clock, |f, outs| det.push_codes_block(f, |_| *outs += 1))
+}
+
 /// The whole receiver (detector and locating maths) on the 4-coil head.
 pub fn receiver(n: usize, clock: &mut dyn FnMut() -> u64) -> (u64, u32) {
     let s = ReceiverSettings::new(DetectorSettings::new(FS, Beacon::Hz512), InputScale::unity(24), Head::reference4());
     let Ok(mut rx) = Receiver::<4>::new(s) else { return (0, 0) };
-    let mut src = source();
-    let mut buf = [[0i32; 4]; CHUNK];
-    let (mut spent, mut outs) = (0, 0);
-    let mut left = n;
-    while left > 0 {
-        let k = frames(left, &mut src, &mut buf);
-        let t0 = clock();
-        rx.push_codes_block(&buf[..k], |_| outs += 1);
-        spent += clock().wrapping_sub(t0);
-        left -= k;
-    }
-    (spent, outs)
+    timed_chunks(n, clock, |f, outs| rx.push_codes_block(f, |_| *outs += 1))
 }
 
 /// The 6-coil one-station fit, `reps` times on one reading 0.4 m off the sonde.

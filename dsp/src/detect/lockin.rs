@@ -61,6 +61,19 @@ pub struct LockIn {
     pub sample_rate_hz: f32,
 }
 
+/// Calls `f` with the offset from the tone (Hz) of every 50 Hz and 60 Hz mains
+/// harmonic within 2 kHz of it.
+fn for_each_harmonic_offset(tone_hz: f32, mut f: impl FnMut(f64)) {
+    let tone = tone_hz as f64;
+    for grid in [50.0f64, 60.0] {
+        let lo = libm::ceil((tone - 2000.0).max(grid) / grid) as i64;
+        let hi = libm::floor((tone + 2000.0) / grid) as i64;
+        for n in lo..=hi {
+            f(n as f64 * grid - tone);
+        }
+    }
+}
+
 /// Lock-in state for `N` coils: main channel and noise probe.
 ///
 /// The noise probe runs at the intermediate rate: the boxcar outputs are
@@ -181,19 +194,13 @@ impl LockIn {
     /// that lies beyond ±f_i/2 (so reaches the low-pass only folded by the
     /// decimation); the neighbours inside ±f_i/2 are the bandwidth's business.
     pub fn folded_mains_leak(&self, tone_hz: f32) -> f64 {
-        let tone = tone_hz as f64;
         let half = self.intermediate_rate_hz as f64 / 2.0;
         let mut worst = 0.0f64;
-        for grid in [50.0f64, 60.0] {
-            let lo = libm::ceil((tone - 2000.0).max(grid) / grid) as i64;
-            let hi = libm::floor((tone + 2000.0) / grid) as i64;
-            for n in lo..=hi {
-                let off = n as f64 * grid - tone;
-                if libm::fabs(off) > half {
-                    worst = worst.max(self.response(off));
-                }
+        for_each_harmonic_offset(tone_hz, |off| {
+            if libm::fabs(off) > half {
+                worst = worst.max(self.response(off));
             }
-        }
+        });
         worst
     }
 
@@ -222,16 +229,9 @@ impl LockIn {
     /// harmonic within 2 kHz through, every harmonic weighted alike (their
     /// strengths are not known).
     pub fn quietest_probe_offset_hz(&self, tone_hz: f32, min_hz: f32, reach_hz: f32, max_above_hz: f32) -> f32 {
-        let tone = tone_hz as f64;
         let leak = |delta: f64| {
             let mut worst = 0.0f64;
-            for grid in [50.0f64, 60.0] {
-                let lo = libm::ceil((tone - 2000.0).max(grid) / grid) as i64;
-                let hi = libm::floor((tone + 2000.0) / grid) as i64;
-                for n in lo..=hi {
-                    worst = worst.max(self.probe_response(n as f64 * grid - tone, delta));
-                }
-            }
+            for_each_harmonic_offset(tone_hz, |off| worst = worst.max(self.probe_response(off, delta)));
             worst
         };
         let step = ((reach_hz - min_hz) / 32.0).max(0.25);
