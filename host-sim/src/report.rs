@@ -134,15 +134,21 @@ fn null_span(seg: &[&Row], s_peak: f64, from: &[f64; 2], ux: f64, uy: f64) -> Op
     let side = |fore: bool| -> Option<f64> {
         let mut cands: Vec<(f64, f64)> = seg.iter().map(|r| (pos(r) - s_peak, r.strength)).filter(|(d, _)| if fore { *d > 0.0 } else { *d < 0.0 }).collect();
         cands.sort_by(|a, b| a.0.abs().partial_cmp(&b.0.abs()).unwrap_or(std::cmp::Ordering::Equal));
+        // Walking out from the peak: the lowest reading before the strength climbs
+        // back above 15 % of the peak (the secondary lobe reaches 20 %), once it
+        // has fallen below 10 % — so a noise dip on the slope is not taken for the null.
         let mut best: Option<(f64, f64)> = None;
+        let mut fell = false;
         for (d, s) in cands {
-            match best {
-                Some((_, bs)) if s > bs && bs < 0.2 * peak => break,
-                Some((_, bs)) if s >= bs => {}
-                _ => best = Some((d, s)),
+            if fell && s > 0.15 * peak {
+                break;
+            }
+            fell |= s < 0.1 * peak;
+            if best.map(|b| s < b.1).unwrap_or(true) {
+                best = Some((d, s));
             }
         }
-        best.filter(|b| b.1 < 0.2 * peak).map(|b| b.0.abs())
+        best.filter(|b| fell && b.1 < 0.1 * peak).map(|b| b.0.abs())
     };
     let (fore, aft) = (side(true)?, side(false)?);
     let spacing = seg.windows(2).map(|w| (pos(w[1]) - pos(w[0])).abs()).sum::<f64>() / seg.len().max(2) as f64;
