@@ -18,6 +18,9 @@ fn demo_depth_within_3_percent_of_truth() {
     assert!(err.abs() < 3.0, "gradient depth error {err} %");
     // The reported σ is honest: the median error is within 3σ.
     assert!((g.estimate_m.unwrap() - g.truth_m.unwrap()).abs() < 3.0 * g.sigma_m.unwrap().max(0.005));
+    // The null span along the axis walk (h = span/√2 for a level sonde, REFERENCES §1) within 3 %.
+    let ns = s.methods.iter().find(|m| m.method.starts_with("null span")).expect("the axis walk has nulls");
+    assert!(ns.error_pct.unwrap().abs() < 3.0, "{ns:?}");
     // The strongest readings of both walks are within 0.1 m of the point over the sonde.
     assert!(s.peak_errors_m.iter().all(|e| e.abs() < 0.1), "{:?}", s.peak_errors_m);
 }
