@@ -19,6 +19,8 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 #![allow(clippy::needless_range_loop)]
+// `!(x > limit)` is written on purpose: it is true for NaN as well.
+#![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 pub mod ads131;
 pub mod app;

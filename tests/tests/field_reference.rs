@@ -1,5 +1,8 @@
 //! Field models against published formulas and values (REFERENCES §1–2).
 
+// Published values are written as the table gives them (e.g. 0.707107, 1.414214), not as constants.
+#![allow(clippy::approx_constant)]
+
 use undertone_dsp::field::dipole::dipole_field;
 use undertone_dsp::field::line::line_field;
 
