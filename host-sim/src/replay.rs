@@ -108,11 +108,7 @@ fn default_head<const N: usize>() -> Result<Head<N>> {
 pub fn print(out: &mut dyn Write, rows: &[Row], json: bool) -> Result<()> {
     let io = |e: std::io::Error| SimError::io(Path::new("<stdout>"), "write", e);
     if json {
-        for r in rows {
-            let line = serde_json::to_string(r).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?;
-            writeln!(out, "{line}").map_err(io)?;
-        }
-        return Ok(());
+        return crate::report::json_lines(out, rows);
     }
     timeline(out, rows, 0.5).map_err(io)?;
     writeln!(out, "\n{CAUTIONS}").map_err(io)?;

@@ -165,6 +165,15 @@ fn null_span(seg: &[&Row], s_peak: f64, from: &[f64; 2], ux: f64, uy: f64) -> Op
     })
 }
 
+/// Print one JSON object per readout.
+pub fn json_lines(out: &mut dyn Write, rows: &[Row]) -> crate::error::Result<()> {
+    for r in rows {
+        let line = serde_json::to_string(r).map_err(|e| crate::error::SimError::Arg { name: "json".into(), msg: e.to_string() })?;
+        writeln!(out, "{line}").map_err(|e| crate::error::SimError::io(std::path::Path::new("<stdout>"), "write", e))?;
+    }
+    Ok(())
+}
+
 /// Print the readout timeline (every `every_s` seconds) as an aligned table.
 pub fn timeline(out: &mut dyn Write, rows: &[Row], every_s: f64) -> std::io::Result<()> {
     writeln!(out, "{:>6} {:>6} {:>6} {:>8} {:>6} {:>7} {:>8} {:>5} {:>14} {:>7}  {}", "t s", "x m", "y m", "str dB", "SNR", "bear°", "state", "walk", "depth m ±σ", "true m", "flags")?;

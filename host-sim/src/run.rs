@@ -177,8 +177,8 @@ pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> 
     }
 }
 
-/// Receiver settings for a scenario with head `head`.
-pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth_hz: Option<f32>) -> Result<ReceiverSettings<N>> {
+/// Receiver settings for a scenario with head `head` (validated when the receiver is built).
+pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth_hz: Option<f32>) -> ReceiverSettings<N> {
     let mut det = detector_settings(sc);
     if let Some(b) = bandwidth_hz {
         det.bandwidth_hz = b;
@@ -188,12 +188,11 @@ pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth
     input.scale = [(sc.receiver.full_scale_t / fsc) as f32; N];
     let mut s = ReceiverSettings::new(det, input, head);
     s.skin_depth_m = crate::physics::skin_depth_m(det.beacon.freq_hz() as f64, sc.receiver.assume_conductivity_s_per_m) as f32;
-    Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
-    Ok(s)
+    s
 }
 
 fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, bw: Option<f32>) -> Result<SimRun> {
-    let s = receiver_settings(sc, head, bw)?;
+    let s = receiver_settings(sc, head, bw);
     let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let mut synth = Synth::new(sc, seed);
     let mut rows = Vec::new();

@@ -15,10 +15,7 @@ pub fn walk(sc: &Scenario, out_dir: &Path, json: bool, seed: Option<u64>, out: &
     let run = simulate(sc, seed, None)?;
     let io = |e: std::io::Error| crate::error::SimError::io(Path::new("<stdout>"), "write", e);
     if json {
-        for r in &run.rows {
-            let line = serde_json::to_string(r).map_err(|e| crate::error::SimError::Arg { name: "json".into(), msg: e.to_string() })?;
-            writeln!(out, "{line}").map_err(io)?;
-        }
+        crate::report::json_lines(out, &run.rows)?;
         return Ok(Vec::new());
     }
     let info = run.info;

@@ -180,14 +180,10 @@ impl LockIn {
 
     /// Relative size of the `2f0` mixing image at the output (1 = as large as the tone).
     pub fn image_leak(&self, tone_hz: f32) -> f64 {
-        let fs = self.sample_rate_hz as f64;
-        let m = self.m as f64;
         let f2 = 2.0 * tone_hz as f64;
-        let x = core::f64::consts::PI * f2 / fs;
-        let boxcar = libm::fabs(libm::sin(m * x) / (m * libm::sin(x)));
         let fi = self.intermediate_rate_hz as f64;
         let alias = f2 - fi * libm::round(f2 / fi);
-        boxcar * self.lowpass_response(alias)
+        self.boxcar_response(f2) * self.lowpass_response(alias)
     }
 
     /// The largest response to a 50 Hz or 60 Hz harmonic within 2 kHz of the tone
@@ -217,11 +213,7 @@ impl LockIn {
     /// at `offset_hz`, then the low-pass at `offset_hz − delta_hz`, periodic in
     /// f_i because it runs after decimation.
     pub fn probe_response(&self, offset_hz: f64, delta_hz: f64) -> f64 {
-        let fs = self.sample_rate_hz as f64;
-        let m = self.m as f64;
-        let x = core::f64::consts::PI * offset_hz / fs;
-        let boxcar = if libm::fabs(libm::sin(x)) < 1e-15 { 1.0 } else { libm::fabs(libm::sin(m * x) / (m * libm::sin(x))) };
-        boxcar * self.lowpass_response(offset_hz - delta_hz)
+        self.boxcar_response(offset_hz) * self.lowpass_response(offset_hz - delta_hz)
     }
 
     /// The probe offset (Hz, either side of the tone, `min_hz` to `reach_hz` away,
@@ -254,11 +246,19 @@ impl LockIn {
 
     /// Normalised magnitude response at `offset_hz` from the tone (boxcar × low-pass).
     pub fn response(&self, offset_hz: f64) -> f64 {
-        let fs = self.sample_rate_hz as f64;
+        self.boxcar_response(offset_hz) * self.lowpass_response(offset_hz)
+    }
+
+    /// |H| of the M-sample boxcar at `offset_hz` (at the input rate):
+    /// `|sin(πfM/fs) / (M·sin(πf/fs))|`, 1 where the denominator vanishes.
+    pub fn boxcar_response(&self, offset_hz: f64) -> f64 {
         let m = self.m as f64;
-        let x = core::f64::consts::PI * offset_hz / fs;
-        let boxcar = if libm::fabs(libm::sin(x)) < 1e-15 { 1.0 } else { libm::fabs(libm::sin(m * x) / (m * libm::sin(x))) };
-        boxcar * self.lowpass_response(offset_hz)
+        let x = core::f64::consts::PI * offset_hz / self.sample_rate_hz as f64;
+        if libm::fabs(libm::sin(x)) < 1e-15 {
+            1.0
+        } else {
+            libm::fabs(libm::sin(m * x) / (m * libm::sin(x)))
+        }
     }
 
     /// Readout interval, s.

@@ -102,7 +102,6 @@ pub struct Detector<const N: usize> {
     have_noise: bool,
     offset: OffsetEstimator<N>,
     mains_flag: bool,
-    readouts: u32,
     cycles: f64,
     probe_cycles: f64,
 }
@@ -201,7 +200,6 @@ impl<const N: usize> Detector<N> {
             have_noise: false,
             offset: OffsetEstimator::new(info.readout_interval_s, 0.1),
             mains_flag: false,
-            readouts: 0,
             cycles,
             probe_cycles,
         };
@@ -331,7 +329,6 @@ impl<const N: usize> Detector<N> {
     }
 
     fn finish(&mut self, n: u64, t_s: f64, mut p: [C32; N], mut pp: [C32; N]) -> Detection<N> {
-        self.readouts = self.readouts.saturating_add(1);
         // Inputs near the f32 range can overflow the accumulators. Such a readout
         // is zeroed and flagged, and the filter state restarted so it recovers.
         let overflow = !(p.iter().all(|v| v.is_finite()) && pp.iter().all(|v| v.is_finite()));
