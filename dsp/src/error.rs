@@ -70,11 +70,7 @@ impl Param {
     /// Unit of the parameter as printed.
     pub const fn unit(self) -> &'static str {
         match self {
-            Param::SampleRate
-            | Param::BeaconFrequency
-            | Param::Bandwidth
-            | Param::ReadoutRate
-            | Param::ScanRange => "Hz",
+            Param::SampleRate | Param::BeaconFrequency | Param::Bandwidth | Param::ReadoutRate | Param::ScanRange => "Hz",
             Param::BlockLength | Param::RecordLength => "samples",
             Param::Distance | Param::HeadGeometry => "m",
             _ => "",

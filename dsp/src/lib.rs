@@ -28,21 +28,17 @@
 
 #![cfg_attr(not(test), no_std)]
 #![forbid(unsafe_code)]
-#![warn(missing_docs)]
-#![allow(clippy::needless_range_loop)]
-// `!(x > limit)` is written on purpose: it is true for NaN as well.
-#![allow(clippy::neg_cmp_op_on_partial_ord)]
+#![deny(missing_docs)]
 
-pub mod complex;
 pub mod detect;
 pub mod error;
 pub mod field;
 pub mod flags;
 pub mod format;
 pub mod locate;
+pub mod phasor;
 pub mod receiver;
 
-pub use complex::C32;
 pub use detect::settings::{Beacon, DetectorKind, DetectorSettings};
 pub use detect::window::Window;
 pub use detect::{Detection, Detector, DetectorInfo};
@@ -50,4 +46,5 @@ pub use error::{ConfigError, Param};
 pub use field::head::Head;
 pub use field::FieldModel;
 pub use flags::Flags;
+pub use phasor::C32;
 pub use receiver::{Readout, Receiver, ReceiverSettings};

@@ -7,7 +7,6 @@
 //! Real-time budget: the per-sample work is the detector's (see `detect`);
 //! everything here runs once per readout (tens of times per second).
 
-use crate::complex::C32;
 use crate::detect::input::InputScale;
 use crate::detect::settings::DetectorSettings;
 use crate::detect::{Detection, Detector, DetectorInfo};
@@ -21,6 +20,7 @@ use crate::locate::depth::{gradient_depth, known_moment_depth, DepthEstimate, In
 use crate::locate::fit::{fit_from, Fix};
 use crate::locate::guidance::{guidance, Guidance};
 use crate::locate::orientation::{Hysteresis, Orientation};
+use crate::phasor::C32;
 
 /// Everything the receiver is configured with.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -175,7 +175,17 @@ impl<const N: usize> Receiver<N> {
         settings.head.validate()?;
         settings.hysteresis.validate()?;
         let detector = Detector::new(&settings.detector, settings.input)?;
-        Ok(Self { settings, detector, state: Orientation::Unknown, last_depth: None, overruns: 0, history: heapless::Deque::new(), last_fix: None, held_fix: None, readouts: 0 })
+        Ok(Self {
+            settings,
+            detector,
+            state: Orientation::Unknown,
+            last_depth: None,
+            overruns: 0,
+            history: heapless::Deque::new(),
+            last_fix: None,
+            held_fix: None,
+            readouts: 0,
+        })
     }
 
     /// Settings in force.

@@ -38,7 +38,13 @@ pub struct App<const N: usize> {
 
 impl<const N: usize> App<N> {
     /// Start with `settings` (or `factory` if they do not build, with the reason).
-    pub fn new(settings: Settings<N>, factory: Settings<N>, fs: f32, full_scale_code: i32, scale: [f32; N]) -> Result<(Self, Option<ConfigError>), ConfigError> {
+    pub fn new(
+        settings: Settings<N>,
+        factory: Settings<N>,
+        fs: f32,
+        full_scale_code: i32,
+        scale: [f32; N],
+    ) -> Result<(Self, Option<ConfigError>), ConfigError> {
         match Receiver::new(settings.receiver_settings(fs, full_scale_code, scale)) {
             Ok(receiver) => Ok((Self { settings, factory, receiver, fs, full_scale_code, scale }, None)),
             Err(e) => {
@@ -123,7 +129,8 @@ impl<const N: usize> App<N> {
                     "detector"
                 }
                 Command::Block(w) => {
-                    s.kind = DetectorKind::Block { window: [Window::Rectangular, Window::Hann, Window::BlackmanHarris4][w.min(2) as usize] };
+                    s.kind =
+                        DetectorKind::Block { window: [Window::Rectangular, Window::Hann, Window::BlackmanHarris4][w.min(2) as usize] };
                     "detector"
                 }
                 Command::Rate(r) => {

@@ -136,7 +136,7 @@ impl<'a, S: SampleSource<N>, const N: usize> FakeAdc<'a, S, N> {
         let crc = crc16_ccitt(0xFFFF, &out[..(N + 1) * WORD]);
         put(&mut out, N + 1, (crc as u32) << 8);
         self.frames += 1;
-        if self.corrupt_every > 0 && self.frames % self.corrupt_every == 0 {
+        if self.corrupt_every > 0 && self.frames.is_multiple_of(self.corrupt_every) {
             out[WORD + 1] ^= 0x10;
         }
         let n = buf.len().min((N + 2) * WORD);
@@ -310,4 +310,3 @@ pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str
     }
     rep
 }
-

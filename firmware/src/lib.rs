@@ -17,10 +17,7 @@
 
 #![cfg_attr(not(test), no_std)]
 #![forbid(unsafe_code)]
-#![warn(missing_docs)]
-#![allow(clippy::needless_range_loop)]
-// `!(x > limit)` is written on purpose: it is true for NaN as well.
-#![allow(clippy::neg_cmp_op_on_partial_ord)]
+#![deny(missing_docs)]
 
 pub mod ads131;
 pub mod app;

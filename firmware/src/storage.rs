@@ -168,13 +168,21 @@ pub fn decode<const N: usize>(b: &[u8]) -> Option<Settings<N>> {
     }
     at += 6;
     let calibration = Calibration { upper_gain: get_f32(b, &mut at), strength: get_f32(b, &mut at), strength_sigma: get_f32(b, &mut at) };
-    Some(Settings { beacon_hz, bandwidth_hz: if bw.is_nan() { None } else { Some(bw) }, kind, readout_hz, units, head: Head { coils, roles }, calibration })
+    Some(Settings {
+        beacon_hz,
+        bandwidth_hz: if bw.is_nan() { None } else { Some(bw) },
+        kind,
+        readout_hz,
+        units,
+        head: Head { coils, roles },
+        calibration,
+    })
 }
 
 impl<F: NorFlash> Store<F> {
     /// The region `[base, base + size)` of `flash` (a whole erase sector).
     pub fn new(flash: F, base: u32, size: u32) -> Result<Self, StoreError> {
-        if (size as usize) < SLOT || SLOT % F::WRITE_SIZE != 0 {
+        if (size as usize) < SLOT || !SLOT.is_multiple_of(F::WRITE_SIZE) {
             return Err(StoreError::TooSmall);
         }
         Ok(Self { flash, base, size })
@@ -338,7 +346,7 @@ impl<const SIZE: usize> NorFlash for RamFlash<SIZE> {
     }
     fn write(&mut self, offset: u32, bytes: &[u8]) -> Result<(), Self::Error> {
         let o = offset as usize;
-        if o % 4 != 0 || bytes.len() % 4 != 0 {
+        if !o.is_multiple_of(4) || !bytes.len().is_multiple_of(4) {
             return Err(RamFlashError::OutOfBounds);
         }
         let n = match self.cut_after.take() {

@@ -1,6 +1,7 @@
 //! The application core, queue, supervisor and tone on the host.
 
 use std::cell::Cell;
+use undertone_dsp::Flags;
 use undertone_firmware::ads131::{Ads131, Osr};
 use undertone_firmware::app::App;
 use undertone_firmware::emulated::{emu_amplitudes, FakeAdc, FakeDrdy, NoWait, Synthetic};
@@ -8,7 +9,6 @@ use undertone_firmware::queue::FrameQueue;
 use undertone_firmware::settings::Settings;
 use undertone_firmware::supervisor::{Action, PathState, Supervisor, MAX_BAD_FRAMES, RETRY_MS, STALL_MS};
 use undertone_firmware::tone::{tone_for, Tone, F_HI_HZ, F_LO_HZ};
-use undertone_dsp::Flags;
 
 #[test]
 fn queue_counts_overruns() {
@@ -95,7 +95,11 @@ fn app_reads_depth_over_the_sonde_through_the_driver() {
 #[test]
 fn tone_rises_with_strength_and_warns_on_clipping() {
     let head = undertone_dsp::Head::reference4();
-    let s = undertone_dsp::ReceiverSettings::new(undertone_dsp::DetectorSettings::new(16_000.0, undertone_dsp::Beacon::Hz512), undertone_dsp::detect::input::InputScale::unity(24), head);
+    let s = undertone_dsp::ReceiverSettings::new(
+        undertone_dsp::DetectorSettings::new(16_000.0, undertone_dsp::Beacon::Hz512),
+        undertone_dsp::detect::input::InputScale::unity(24),
+        head,
+    );
     let mut rx = undertone_dsp::Receiver::new(s).unwrap();
     let mk = |snr: f32| undertone_dsp::Detection::<4> {
         sample_index: 0,

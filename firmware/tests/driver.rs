@@ -5,7 +5,7 @@
 use embedded_hal_mock::eh1::delay::NoopDelay;
 use embedded_hal_mock::eh1::digital::{Mock as PinMock, State, Transaction as PinT};
 use embedded_hal_mock::eh1::spi::{Mock as SpiMock, Transaction as SpiT};
-use undertone_firmware::ads131::{Ads131, AdcError, Osr};
+use undertone_firmware::ads131::{AdcError, Ads131, Osr};
 use undertone_firmware::crc::crc16_ccitt;
 
 const N: usize = 4;

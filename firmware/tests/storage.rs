@@ -1,9 +1,9 @@
 //! Settings storage on an in-memory NOR flash: round trip, log wrap-around,
 //! corrupt and other-version records, and a power cut mid-write.
 
+use undertone_dsp::format::LengthUnit;
 use undertone_firmware::settings::Settings;
 use undertone_firmware::storage::{encode, LoadOutcome, RamFlash, Store, SLOT, VERSION};
-use undertone_dsp::format::LengthUnit;
 
 const SIZE: usize = 8 * SLOT;
 

@@ -22,12 +22,40 @@ fn f(v: Option<f64>, p: usize) -> String {
 /// `sweep`.
 pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, out_dir: &Path, out: &mut dyn Write) -> Result<()> {
     let rows = run_sweep(sc, bandwidths, trials, std::io::stderr().is_terminal())?;
-    writeln!(out, "Bandwidth sweep: {} ({} trials per bandwidth, {} threads)", sc.name, trials, rayon::current_num_threads()).map_err(io)?;
-    writeln!(out, "{:>10} {:>7} {:>11} {:>13} {:>9} {:>9} {:>11}", "bw Hz", "depth", "bias %", "scatter %", "settle s", "lag m", "false peak").map_err(io)?;
+    writeln!(out, "Bandwidth sweep: {} ({} trials per bandwidth, {} threads)", sc.name, trials, rayon::current_num_threads())
+        .map_err(io)?;
+    writeln!(
+        out,
+        "{:>10} {:>7} {:>11} {:>13} {:>9} {:>9} {:>11}",
+        "bw Hz", "depth", "bias %", "scatter %", "settle s", "lag m", "false peak"
+    )
+    .map_err(io)?;
     let mut csv = String::from("bandwidth_hz,trials,with_depth,depth_bias_pct,depth_scatter_pct,settle_s,lag_m,false_peak_rate\n");
     for r in &rows {
-        writeln!(out, "{:>10.3} {:>3}/{:<3} {:>11} {:>13} {:>9.2} {:>9} {:>11.2}", r.bandwidth_hz, r.with_depth, r.trials, f(r.depth_bias_pct, 2), f(r.depth_scatter_pct, 2), r.settle_s, f(r.lag_m, 3), r.false_peak_rate).map_err(io)?;
-        csv += &format!("{},{},{},{},{},{},{},{}\n", r.bandwidth_hz, r.trials, r.with_depth, f(r.depth_bias_pct, 4), f(r.depth_scatter_pct, 4), r.settle_s, f(r.lag_m, 4), r.false_peak_rate);
+        writeln!(
+            out,
+            "{:>10.3} {:>3}/{:<3} {:>11} {:>13} {:>9.2} {:>9} {:>11.2}",
+            r.bandwidth_hz,
+            r.with_depth,
+            r.trials,
+            f(r.depth_bias_pct, 2),
+            f(r.depth_scatter_pct, 2),
+            r.settle_s,
+            f(r.lag_m, 3),
+            r.false_peak_rate
+        )
+        .map_err(io)?;
+        csv += &format!(
+            "{},{},{},{},{},{},{},{}\n",
+            r.bandwidth_hz,
+            r.trials,
+            r.with_depth,
+            f(r.depth_bias_pct, 4),
+            f(r.depth_scatter_pct, 4),
+            r.settle_s,
+            f(r.lag_m, 4),
+            r.false_peak_rate
+        );
     }
     match recommend(&rows, max_lag_m) {
         Some(b) => writeln!(
@@ -42,7 +70,9 @@ pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, o
     folder(out_dir)?;
     let csv_path = out_dir.join("sweep.csv");
     write_atomic(&csv_path, csv.as_bytes())?;
-    let pts = |g: &dyn Fn(&crate::sweep::SweepRow) -> Option<f64>| rows.iter().filter_map(|r| g(r).map(|v| (r.bandwidth_hz, v))).collect::<Vec<_>>();
+    let pts = |g: &dyn Fn(&crate::sweep::SweepRow) -> Option<f64>| {
+        rows.iter().filter_map(|r| g(r).map(|v| (r.bandwidth_hz, v))).collect::<Vec<_>>()
+    };
     let mut files = vec![csv_path];
     files.extend(line_chart(
         &out_dir.join("sweep-depth"),
@@ -51,8 +81,18 @@ pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, o
             x_label: "detection bandwidth (Hz)".into(),
             y_label: "depth error (%)".into(),
             series: vec![
-                Series { name: "bias (mean of trials)".into(), points: pts(&|r| r.depth_bias_pct), color: RGBColor(214, 39, 40), dots: false },
-                Series { name: "scatter (sd of trials)".into(), points: pts(&|r| r.depth_scatter_pct), color: RGBColor(31, 119, 180), dots: false },
+                Series {
+                    name: "bias (mean of trials)".into(),
+                    points: pts(&|r| r.depth_bias_pct),
+                    color: RGBColor(214, 39, 40),
+                    dots: false,
+                },
+                Series {
+                    name: "scatter (sd of trials)".into(),
+                    points: pts(&|r| r.depth_scatter_pct),
+                    color: RGBColor(31, 119, 180),
+                    dots: false,
+                },
             ],
             y_range: None,
         },
@@ -66,7 +106,12 @@ pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, o
             series: vec![
                 Series { name: "peak lag, m".into(), points: pts(&|r| r.lag_m), color: RGBColor(44, 160, 44), dots: false },
                 Series { name: "99 % settling, s".into(), points: pts(&|r| Some(r.settle_s)), color: RGBColor(148, 103, 189), dots: false },
-                Series { name: format!("lag limit {max_lag_m} m"), points: rows.iter().map(|r| (r.bandwidth_hz, max_lag_m)).collect(), color: RGBColor(120, 120, 120), dots: false },
+                Series {
+                    name: format!("lag limit {max_lag_m} m"),
+                    points: rows.iter().map(|r| (r.bandwidth_hz, max_lag_m)).collect(),
+                    color: RGBColor(120, 120, 120),
+                    dots: false,
+                },
             ],
             y_range: None,
         },
@@ -84,7 +129,11 @@ pub fn depthcheck(head: HeadChoice, snr_db: f64, out_dir: &Path, out: &mut dyn W
     let cases = depthcheck::run(head, snr_db)?;
     let methods: Vec<&str> = METHODS.iter().cloned().filter(|m| cases.iter().any(|c| c.method == *m)).collect();
     writeln!(out, "Depth check ({head:?} head): worst |error| noise-free / RMS error at {snr_db} dB SNR, over offsets (0, 0.05h ahead, 0.1h left), pitch 0-30 deg, upper-coil gain mismatch 0-5 %").map_err(io)?;
-    writeln!(out, "'*' marks an error past {LIMIT_PCT} %; '--' means the receiver withheld every estimate; 'w' counts withheld grid points").map_err(io)?;
+    writeln!(
+        out,
+        "'*' marks an error past {LIMIT_PCT} %; '--' means the receiver withheld every estimate; 'w' counts withheld grid points"
+    )
+    .map_err(io)?;
     write!(out, "{:>7}", "depth m").map_err(io)?;
     for m in &methods {
         write!(out, " {:>26}", m).map_err(io)?;
@@ -108,7 +157,17 @@ pub fn depthcheck(head: HeadChoice, snr_db: f64, out_dir: &Path, out: &mut dyn W
     folder(out_dir)?;
     let mut csv = String::from("method,depth_m,ahead_over_h,left_over_h,pitch_deg,mismatch,noisy,error_pct\n");
     for c in &cases {
-        csv += &format!("{},{},{},{},{},{},{},{}\n", c.method, c.depth_m, c.ahead, c.left, c.pitch_deg, c.mismatch, c.noisy, c.error_pct.map(|e| e.to_string()).unwrap_or_default());
+        csv += &format!(
+            "{},{},{},{},{},{},{},{}\n",
+            c.method,
+            c.depth_m,
+            c.ahead,
+            c.left,
+            c.pitch_deg,
+            c.mismatch,
+            c.noisy,
+            c.error_pct.map(|e| e.to_string()).unwrap_or_default()
+        );
     }
     let csv_path = out_dir.join("depthcheck.csv");
     write_atomic(&csv_path, csv.as_bytes())?;
@@ -119,7 +178,12 @@ pub fn depthcheck(head: HeadChoice, snr_db: f64, out_dir: &Path, out: &mut dyn W
         let mut marked = Vec::new();
         for (iy, &h) in DEPTHS_M.iter().enumerate() {
             for (ix, &p) in PITCHES_DEG.iter().enumerate() {
-                let w = cases.iter().filter(|c| c.method == *m && !c.noisy && c.depth_m == h && c.pitch_deg == p).filter_map(|c| c.error_pct).map(f64::abs).fold(f64::NAN, f64::max);
+                let w = cases
+                    .iter()
+                    .filter(|c| c.method == *m && !c.noisy && c.depth_m == h && c.pitch_deg == p)
+                    .filter_map(|c| c.error_pct)
+                    .map(f64::abs)
+                    .fold(f64::NAN, f64::max);
                 values[iy][ix] = w;
                 if w > LIMIT_PCT {
                     marked.push((ix, iy));
@@ -140,7 +204,10 @@ pub fn depthcheck(head: HeadChoice, snr_db: f64, out_dir: &Path, out: &mut dyn W
                 tracks: vec![],
                 marked,
                 marked_name: format!("error > {LIMIT_PCT} %"),
-                cell_labels: Some((PITCHES_DEG.iter().map(|p| format!("{p}")).collect(), DEPTHS_M.iter().map(|d| format!("{d}")).collect())),
+                cell_labels: Some((
+                    PITCHES_DEG.iter().map(|p| format!("{p}")).collect(),
+                    DEPTHS_M.iter().map(|d| format!("{d}")).collect(),
+                )),
             },
         )?);
     }

@@ -72,7 +72,13 @@ fn readings(geom: &HeadGeom, h: f64, ahead: f64, left: f64, pitch: f64, mismatch
         .collect()
 }
 
-fn locate<const N: usize>(head: Head<N>, r: &[f64], snr_db: Option<f64>, cal: Calibration, rng: &mut ChaCha8Rng) -> (Option<f64>, Option<f64>, Option<f64>) {
+fn locate<const N: usize>(
+    head: Head<N>,
+    r: &[f64],
+    snr_db: Option<f64>,
+    cal: Calibration,
+    rng: &mut ChaCha8Rng,
+) -> (Option<f64>, Option<f64>, Option<f64>) {
     let det = DetectorSettings::new(48_000.0, Beacon::Hz512);
     let mut s = ReceiverSettings::new(det, InputScale::unity(24), head);
     s.calibration = cal;
@@ -87,7 +93,15 @@ fn locate<const N: usize>(head: Head<N>, r: &[f64], snr_db: Option<f64>, cal: Ca
             let v = r[c];
             p[c] = C32::new((v * 0.3f64.cos() + sigma * nr) as f32, (v * 0.3f64.sin() + sigma * ni) as f32);
         }
-        let d = undertone_dsp::Detection::<N> { sample_index: 0, t_s: 0.0, phasors: p, noise_sigma: [sigma as f32; N], stats: Default::default(), freq_offset_hz: 0.0, flags: Default::default() };
+        let d = undertone_dsp::Detection::<N> {
+            sample_index: 0,
+            t_s: 0.0,
+            phasors: p,
+            noise_sigma: [sigma as f32; N],
+            stats: Default::default(),
+            freq_offset_hz: 0.0,
+            flags: Default::default(),
+        };
         last = Some(rx.locate(&d));
     }
     let r = last.expect("at least one readout");
@@ -188,7 +202,16 @@ pub fn run(head: HeadChoice, snr_db: f64) -> Result<Vec<Case>> {
                 let fix = null_span_depth((f + ef).max(1e-3) as f32, (b + eb).max(1e-3) as f32, 0.02);
                 fix.depth.is_valid().then_some(fix.depth.depth_m as f64)
             });
-            let mk = |method, est: Option<f64>| Case { method, depth_m: h, ahead: a, left: l, pitch_deg: p, mismatch: mm, noisy, error_pct: est.map(|e| 100.0 * (e - h) / h) };
+            let mk = |method, est: Option<f64>| Case {
+                method,
+                depth_m: h,
+                ahead: a,
+                left: l,
+                pitch_deg: p,
+                mismatch: mm,
+                noisy,
+                error_pct: est.map(|e| 100.0 * (e - h) / h),
+            };
             let mut v = vec![mk("gradient", grad), mk("known moment", known)];
             if head == HeadChoice::Triads6 {
                 v.push(mk("6-coil fit", fit));
@@ -203,8 +226,11 @@ pub fn run(head: HeadChoice, snr_db: f64) -> Result<Vec<Case>> {
     Ok(cases.into_iter().flatten().collect())
 }
 
+/// One method at one depth: worst |error| noise-free, RMS error noisy (%), withheld and total grid points.
+pub type MethodCell = (Option<f64>, Option<f64>, usize, usize);
+
 /// Worst |error| (noise-free) and RMS error (noisy) per method and depth.
-pub fn table(cases: &[Case]) -> Vec<(f64, Vec<(Option<f64>, Option<f64>, usize, usize)>)> {
+pub fn table(cases: &[Case]) -> Vec<(f64, Vec<MethodCell>)> {
     DEPTHS_M
         .iter()
         .map(|&h| {
@@ -212,7 +238,10 @@ pub fn table(cases: &[Case]) -> Vec<(f64, Vec<(Option<f64>, Option<f64>, usize, 
                 .iter()
                 .map(|&m| {
                     let sel = |noisy: bool| cases.iter().filter(move |c| c.method == m && c.depth_m == h && c.noisy == noisy);
-                    let worst = sel(false).filter_map(|c| c.error_pct).map(f64::abs).fold(None, |a: Option<f64>, b| Some(a.map_or(b, |a| a.max(b))));
+                    let worst = sel(false)
+                        .filter_map(|c| c.error_pct)
+                        .map(f64::abs)
+                        .fold(None, |a: Option<f64>, b| Some(a.map_or(b, |a| a.max(b))));
                     let noisy: Vec<f64> = sel(true).filter_map(|c| c.error_pct).collect();
                     let rms = (!noisy.is_empty()).then(|| (noisy.iter().map(|e| e * e).sum::<f64>() / noisy.len() as f64).sqrt());
                     let total = sel(false).count();

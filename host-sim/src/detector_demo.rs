@@ -8,6 +8,7 @@
 
 use std::io::Write;
 use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::phasor::Phasor;
 use undertone_dsp::{Beacon, Detector, DetectorSettings};
 
 /// Run the demo, writing the report to `out`.
@@ -57,18 +58,26 @@ pub fn run(out: &mut dyn Write) -> std::io::Result<()> {
     }
     let info = *det.info();
     writeln!(out, "Undertone detector demo: 4 coils, {:.0} Hz beacon, fs {:.0} Hz, 4-pole lock-in", f0, fs)?;
-    writeln!(out, "bandwidth {:.3} Hz, 99% settling {:.2} s, readouts every {:.3} s, noise probe at {:.1} Hz", info.bandwidth_hz, info.settle_99_s, info.readout_interval_s, info.probe_hz)?;
+    writeln!(
+        out,
+        "bandwidth {:.3} Hz, 99% settling {:.2} s, readouts every {:.3} s, noise probe at {:.1} Hz",
+        info.bandwidth_hz, info.settle_99_s, info.readout_interval_s, info.probe_hz
+    )?;
     let m = det.mains();
     for h in m.harmonics {
-        writeln!(out, "mains {:>2.0} Hz grid: harmonic {:>3} at {:>7.1} Hz ({:+.1} Hz) rejected {:6.1} dB", h.grid_hz, h.order, h.freq_hz, h.offset_hz, h.rejection_db)?;
+        writeln!(
+            out,
+            "mains {:>2.0} Hz grid: harmonic {:>3} at {:>7.1} Hz ({:+.1} Hz) rejected {:6.1} dB",
+            h.grid_hz, h.order, h.freq_hz, h.offset_hz, h.rejection_db
+        )?;
     }
     let d = last.ok_or_else(|| std::io::Error::other("no readout"))?;
     writeln!(out, "{:>5} {:>12} {:>12} {:>10} {:>10} {:>9}", "coil", "true amp", "measured", "true ph", "measured", "SNR dB")?;
     for c in 0..4 {
         let p = d.phasors[c];
         let true_ph = if amps[c] < 0.0 { wrap(phase + std::f64::consts::PI) } else { phase };
-        let snr = 20.0 * (p.abs() as f64 / (d.noise_sigma[c] as f64 * std::f64::consts::SQRT_2)).log10();
-        writeln!(out, "{:>5} {:>12.6} {:>12.6} {:>10.4} {:>10.4} {:>9.1}", c, amps[c].abs(), p.abs(), true_ph, p.arg(), snr)?;
+        let snr = 20.0 * (p.magnitude() as f64 / (d.noise_sigma[c] as f64 * std::f64::consts::SQRT_2)).log10();
+        writeln!(out, "{:>5} {:>12.6} {:>12.6} {:>10.4} {:>10.4} {:>9.1}", c, amps[c].abs(), p.magnitude(), true_ph, p.angle_rad(), snr)?;
     }
     writeln!(out, "frequency offset {:+.4} Hz; flags: {}", d.freq_offset_hz, d.flags.names().collect::<Vec<_>>().join(","))?;
     Ok(())
@@ -76,5 +85,9 @@ pub fn run(out: &mut dyn Write) -> std::io::Result<()> {
 
 fn wrap(x: f64) -> f64 {
     let t = x.rem_euclid(2.0 * std::f64::consts::PI);
-    if t > std::f64::consts::PI { t - 2.0 * std::f64::consts::PI } else { t }
+    if t > std::f64::consts::PI {
+        t - 2.0 * std::f64::consts::PI
+    } else {
+        t
+    }
 }

@@ -8,17 +8,53 @@ use std::path::{Path, PathBuf};
 #[derive(Debug)]
 pub enum SimError {
     /// A file could not be read or written.
-    Io { path: PathBuf, what: &'static str, err: std::io::Error },
+    Io {
+        /// The file.
+        path: PathBuf,
+        /// What was being done ("read scenario", "write", …).
+        what: &'static str,
+        /// The operating system's error.
+        err: std::io::Error,
+    },
     /// A scenario or head file is not valid TOML or has unknown keys.
-    Parse { path: String, msg: String },
+    Parse {
+        /// The file (or "built-in demo").
+        path: String,
+        /// The parser's message, with the line.
+        msg: String,
+    },
     /// A value is outside its allowed range.
-    Value { path: String, field: String, value: String, allowed: String },
+    Value {
+        /// The file.
+        path: String,
+        /// The field's path in the file, e.g. `receiver.sample_rate_hz`.
+        field: String,
+        /// The value given.
+        value: String,
+        /// What is allowed.
+        allowed: String,
+    },
     /// A WAV file the replay cannot use.
-    Wav { path: PathBuf, msg: String },
+    Wav {
+        /// The recording.
+        path: PathBuf,
+        /// What is wrong with it.
+        msg: String,
+    },
     /// Settings the receiver refuses.
-    Config { context: String, err: undertone_dsp::ConfigError },
+    Config {
+        /// Where the settings came from.
+        context: String,
+        /// The setting refused and its allowed range.
+        err: undertone_dsp::ConfigError,
+    },
     /// Bad command-line value.
-    Arg { name: String, msg: String },
+    Arg {
+        /// The option, e.g. `--trials`.
+        name: String,
+        /// What is wrong and what is allowed.
+        msg: String,
+    },
 }
 
 impl SimError {

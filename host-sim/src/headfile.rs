@@ -83,7 +83,14 @@ impl HeadFile {
                 "upper-y" => Some((1, 1)),
                 "upper-z" => Some((1, 2)),
                 "none" => None,
-                other => return Err(SimError::value(path, &format!("coil[{i}].role"), format!("\"{other}\""), "lower-x, lower-y, lower-z, upper-x, upper-y, upper-z or none")),
+                other => {
+                    return Err(SimError::value(
+                        path,
+                        &format!("coil[{i}].role"),
+                        format!("\"{other}\""),
+                        "lower-x, lower-y, lower-z, upper-x, upper-y, upper-z or none",
+                    ))
+                }
             };
             if let Some((level, k)) = slot {
                 let r = if level == 0 { &mut roles.lower } else { &mut roles.upper };

@@ -8,9 +8,6 @@
 //! * [`wav`]: recordings in and out.
 //! * [`sweep`], [`depthcheck`], [`map`]: the analysis commands.
 
-// `!(x > limit)` is written on purpose: it is true for NaN as well.
-#![allow(clippy::neg_cmp_op_on_partial_ord)]
-
 pub mod commands;
 pub mod depthcheck;
 pub mod detector_demo;

@@ -135,7 +135,10 @@ fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
             writeln!(out, "wrote {} ({} channels, {} frames, {:.0} Hz, {:?})", output.display(), s.coils, n, s.fs, format).map_err(io)
         }
         Command::Replay { file, freq, head, bandwidth, json } => {
-            let rows = undertone_sim::replay::replay(&file, &undertone_sim::replay::ReplayOptions { freq_hz: freq, head: head.as_deref(), bandwidth_hz: bandwidth })?;
+            let rows = undertone_sim::replay::replay(
+                &file,
+                &undertone_sim::replay::ReplayOptions { freq_hz: freq, head: head.as_deref(), bandwidth_hz: bandwidth },
+            )?;
             undertone_sim::replay::print(out, &rows, json)
         }
         Command::Sweep { scenario, bandwidths, trials, max_lag_m, output } => {
@@ -169,7 +172,8 @@ fn main() -> ExitCode {
         Ok(c) => c,
         Err(e) => {
             use clap::error::ErrorKind;
-            if matches!(e.kind(), ErrorKind::DisplayHelp | ErrorKind::DisplayVersion | ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand) {
+            if matches!(e.kind(), ErrorKind::DisplayHelp | ErrorKind::DisplayVersion | ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand)
+            {
                 let _ = e.print();
                 return if e.kind() == ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand { ExitCode::from(2) } else { ExitCode::SUCCESS };
             }

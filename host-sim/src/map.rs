@@ -21,7 +21,8 @@ pub fn map(sc: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>> {
     let dur = motion.duration_s();
     let s = &sc.sonde;
     let ax = axis(s.yaw_deg.to_radians(), s.pitch_deg.to_radians());
-    let sonde_at = |t: f64| [s.x_m + ax[0] * s.push_speed_m_s * t, s.y_m + ax[1] * s.push_speed_m_s * t, -s.depth_m + ax[2] * s.push_speed_m_s * t];
+    let sonde_at =
+        |t: f64| [s.x_m + ax[0] * s.push_speed_m_s * t, s.y_m + ax[1] * s.push_speed_m_s * t, -s.depth_m + ax[2] * s.push_speed_m_s * t];
     let steps = 200;
     let path: Vec<(f64, f64)> = (0..=steps).map(|k| motion.pose(dur * k as f64 / steps as f64)).map(|p| (p.x_m, p.y_m)).collect();
     let (p0, p1) = (sonde_at(0.0), sonde_at(dur));
@@ -63,7 +64,10 @@ pub fn map(sc: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>> {
         x: (x0, x1),
         y: (y0, y1),
         values,
-        tracks: vec![("receiver path".into(), path.clone(), plotters::style::RGBColor(255, 255, 255)), ("sonde track and axis".into(), track.clone(), plotters::style::RGBColor(230, 30, 30))],
+        tracks: vec![
+            ("receiver path".into(), path.clone(), plotters::style::RGBColor(255, 255, 255)),
+            ("sonde track and axis".into(), track.clone(), plotters::style::RGBColor(230, 30, 30)),
+        ],
         marked: vec![],
         marked_name: String::new(),
         cell_labels: None,

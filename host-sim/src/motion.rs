@@ -23,7 +23,9 @@ pub fn segment_duration(m: &MotionSpec) -> f64 {
     match m {
         MotionSpec::Walk { from, to, speed_m_s, .. } => dist(*from, *to) / speed_m_s,
         MotionSpec::Circle { radius_m, speed_m_s, turns, .. } => 2.0 * std::f64::consts::PI * radius_m * turns / speed_m_s,
-        MotionSpec::Raster { from, to, spacing_m, speed_m_s } => raster_points(*from, *to, *spacing_m).windows(2).map(|w| dist(w[0], w[1])).sum::<f64>() / speed_m_s,
+        MotionSpec::Raster { from, to, spacing_m, speed_m_s } => {
+            raster_points(*from, *to, *spacing_m).windows(2).map(|w| dist(w[0], w[1])).sum::<f64>() / speed_m_s
+        }
         MotionSpec::Still { duration_s, .. } => *duration_s,
     }
 }
@@ -74,7 +76,11 @@ pub struct Motion {
 impl Motion {
     /// From the scenario's segments and seed.
     pub fn new(specs: &[MotionSpec], seed: u64) -> Self {
-        let ph = |k: u64| ((seed.wrapping_mul(0x9E37_79B9_7F4A_7C15).wrapping_add(k.wrapping_mul(0xD1B5_4A32_D192_ED03)) >> 11) as f64) / (1u64 << 53) as f64 * std::f64::consts::TAU;
+        let ph = |k: u64| {
+            ((seed.wrapping_mul(0x9E37_79B9_7F4A_7C15).wrapping_add(k.wrapping_mul(0xD1B5_4A32_D192_ED03)) >> 11) as f64)
+                / (1u64 << 53) as f64
+                * std::f64::consts::TAU
+        };
         Self { segments: specs.iter().map(|m| (m.clone(), segment_duration(m))).collect(), wobble_phase: [ph(1), ph(2)] }
     }
 
@@ -101,12 +107,17 @@ impl Motion {
                 let (p, hd) = along_polyline(&[*from, *to], tl * speed_m_s);
                 let base = heading_deg.map(|h| h.to_radians()).unwrap_or(hd);
                 let w = wobble_deg.to_radians()
-                    * (0.7 * (std::f64::consts::TAU * 0.31 * t + self.wobble_phase[0]).sin() + 0.3 * (std::f64::consts::TAU * 0.83 * t + self.wobble_phase[1]).sin());
+                    * (0.7 * (std::f64::consts::TAU * 0.31 * t + self.wobble_phase[0]).sin()
+                        + 0.3 * (std::f64::consts::TAU * 0.83 * t + self.wobble_phase[1]).sin());
                 Pose { x_m: p[0], y_m: p[1], heading_rad: base + w }
             }
             MotionSpec::Circle { centre, radius_m, speed_m_s, .. } => {
                 let a = tl * speed_m_s / radius_m;
-                Pose { x_m: centre[0] + radius_m * a.cos(), y_m: centre[1] + radius_m * a.sin(), heading_rad: a + std::f64::consts::FRAC_PI_2 }
+                Pose {
+                    x_m: centre[0] + radius_m * a.cos(),
+                    y_m: centre[1] + radius_m * a.sin(),
+                    heading_rad: a + std::f64::consts::FRAC_PI_2,
+                }
             }
             MotionSpec::Raster { from, to, spacing_m, speed_m_s } => {
                 let pts = raster_points(*from, *to, *spacing_m);

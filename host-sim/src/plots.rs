@@ -127,19 +127,36 @@ where
         .x_label_area_size(50)
         .y_label_area_size(80)
         .build_cartesian_2d(xr.0..xr.1, yr.0..yr.1)?;
-    c.configure_mesh().x_desc(&chart.x_label).y_desc(&chart.y_label).label_style(("sans-serif", 16)).axis_desc_style(("sans-serif", 18)).draw()?;
+    c.configure_mesh()
+        .x_desc(&chart.x_label)
+        .y_desc(&chart.y_label)
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 18))
+        .draw()?;
     for s in &chart.series {
         let col = s.color;
         let pts: Vec<(f64, f64)> = s.points.iter().cloned().filter(|p| p.0.is_finite() && p.1.is_finite()).collect();
         if s.dots {
-            c.draw_series(pts.iter().map(|&p| Circle::new(p, 2, col.filled())))?.label(&s.name).legend(move |(x, y)| Circle::new((x + 10, y), 4, col.filled()));
+            c.draw_series(pts.iter().map(|&p| Circle::new(p, 2, col.filled())))?
+                .label(&s.name)
+                .legend(move |(x, y)| Circle::new((x + 10, y), 4, col.filled()));
         } else {
-            c.draw_series(LineSeries::new(pts, col.stroke_width(2)))?.label(&s.name).legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
+            c.draw_series(LineSeries::new(pts, col.stroke_width(2)))?
+                .label(&s.name)
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(2)));
         }
     }
-    c.configure_series_labels().background_style(WHITE.mix(0.85)).border_style(BLACK).label_font(("sans-serif", 16)).position(SeriesLabelPosition::UpperRight).draw()?;
+    c.configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .label_font(("sans-serif", 16))
+        .position(SeriesLabelPosition::UpperRight)
+        .draw()?;
     Ok(())
 }
+
+/// A track drawn over a heat map: legend name, points (x, y) in m, colour.
+pub type Track = (String, Vec<(f64, f64)>, RGBColor);
 
 /// A heat map of `values[iy][ix]` over x and y ranges, with an optional track.
 pub struct Heatmap {
@@ -158,7 +175,7 @@ pub struct Heatmap {
     /// Rows of values, bottom row first.
     pub values: Vec<Vec<f64>>,
     /// Tracks to draw on top: legend name, points (x, y), colour.
-    pub tracks: Vec<(String, Vec<(f64, f64)>, RGBColor)>,
+    pub tracks: Vec<Track>,
     /// Cells to outline (ix, iy), e.g. where an error passes a limit.
     pub marked: Vec<(usize, usize)>,
     /// Labels of the columns and rows when the grid is categorical (cell centres).
@@ -204,11 +221,19 @@ where
         Some((xs, ys)) => {
             let xl = |v: &f64| {
                 let i = v.floor();
-                if (v - i - 0.5).abs() < 1e-6 { xs.get(i as usize).cloned().unwrap_or_default() } else { String::new() }
+                if (v - i - 0.5).abs() < 1e-6 {
+                    xs.get(i as usize).cloned().unwrap_or_default()
+                } else {
+                    String::new()
+                }
             };
             let yl = |v: &f64| {
                 let i = v.floor();
-                if (v - i - 0.5).abs() < 1e-6 { ys.get(i as usize).cloned().unwrap_or_default() } else { String::new() }
+                if (v - i - 0.5).abs() < 1e-6 {
+                    ys.get(i as usize).cloned().unwrap_or_default()
+                } else {
+                    String::new()
+                }
             };
             c.configure_mesh()
                 .disable_mesh()
@@ -223,7 +248,13 @@ where
                 .draw()?;
         }
         None => {
-            c.configure_mesh().disable_mesh().x_desc(&h.x_label).y_desc(&h.y_label).label_style(("sans-serif", 16)).axis_desc_style(("sans-serif", 18)).draw()?;
+            c.configure_mesh()
+                .disable_mesh()
+                .x_desc(&h.x_label)
+                .y_desc(&h.y_label)
+                .label_style(("sans-serif", 16))
+                .axis_desc_style(("sans-serif", 18))
+                .draw()?;
         }
     }
     let dx = (h.x.1 - h.x.0) / nx as f64;
@@ -252,13 +283,21 @@ where
     }
     for (name, pts, col) in &h.tracks {
         let col = *col;
-        c.draw_series(LineSeries::new(pts.clone(), col.stroke_width(3)))?.label(name).legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(3)));
+        c.draw_series(LineSeries::new(pts.clone(), col.stroke_width(3)))?
+            .label(name)
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], col.stroke_width(3)));
     }
     if !h.marked.is_empty() || !h.tracks.is_empty() {
         c.configure_series_labels().background_style(WHITE.mix(0.85)).border_style(BLACK).label_font(("sans-serif", 16)).draw()?;
     }
     // Colour bar.
-    let mut cb = ChartBuilder::on(&bar).margin_top(60).margin_bottom(65).margin_right(10).y_label_area_size(60).caption(&h.value_label, ("sans-serif", 14)).build_cartesian_2d(0.0..1.0, lo..hi)?;
+    let mut cb = ChartBuilder::on(&bar)
+        .margin_top(60)
+        .margin_bottom(65)
+        .margin_right(10)
+        .y_label_area_size(60)
+        .caption(&h.value_label, ("sans-serif", 14))
+        .build_cartesian_2d(0.0..1.0, lo..hi)?;
     cb.configure_mesh().disable_mesh().disable_x_axis().label_style(("sans-serif", 14)).draw()?;
     let steps = 100;
     cb.draw_series((0..steps).map(|k| {

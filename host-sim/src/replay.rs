@@ -45,12 +45,20 @@ pub fn replay(path: &Path, opt: &ReplayOptions) -> Result<Vec<Row>> {
     let coils = head_file.as_ref().map(|h| h.0.coil.len()).unwrap_or(4);
     if rec.channels != coils {
         let what = if opt.head.is_some() { "the head file" } else { "the 4-coil reference head (give --head for another)" };
-        return Err(SimError::Wav { path: path.to_path_buf(), msg: format!("has {} channels but {} has {} coils", rec.channels, what, coils) });
+        return Err(SimError::Wav {
+            path: path.to_path_buf(),
+            msg: format!("has {} channels but {} has {} coils", rec.channels, what, coils),
+        });
     }
     dispatch!(coils, run_n(&rec, head_file.as_ref(), opt, path))
 }
 
-fn run_n<const N: usize>(rec: &crate::wav::Recording, head: Option<&(HeadFile, String)>, opt: &ReplayOptions, path: &Path) -> Result<Vec<Row>> {
+fn run_n<const N: usize>(
+    rec: &crate::wav::Recording,
+    head: Option<&(HeadFile, String)>,
+    opt: &ReplayOptions,
+    path: &Path,
+) -> Result<Vec<Row>> {
     let head: Head<N> = match head {
         Some((h, p)) => h.to_head::<N>(p)?,
         None => default_head::<N>()?,

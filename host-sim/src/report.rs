@@ -99,13 +99,18 @@ pub fn summarise(sc: &Scenario, run: &SimRun) -> Summary {
     for (i, m) in sc.motion.iter().enumerate() {
         if let MotionSpec::Walk { from, to, heading_deg, .. } = m {
             let seg: Vec<&Row> = rows.iter().filter(|r| segment_of(sc, r.t_s) == i).collect();
-            let Some(best) = seg.iter().max_by(|a, b| a.strength.partial_cmp(&b.strength).unwrap_or(std::cmp::Ordering::Equal)) else { continue };
+            let Some(best) = seg.iter().max_by(|a, b| a.strength.partial_cmp(&b.strength).unwrap_or(std::cmp::Ordering::Equal)) else {
+                continue;
+            };
             let Some(t) = best.truth else { continue };
             // The sonde's point on this walk: projection of its position on the walk line.
             let (dx, dy) = (to[0] - from[0], to[1] - from[1]);
             let l = (dx * dx + dy * dy).sqrt();
             let (ux, uy) = (dx / l, dy / l);
-            let sonde = [t.x_m + t.ahead_m * t.heading_deg.to_radians().cos() - t.left_m * t.heading_deg.to_radians().sin(), t.y_m + t.ahead_m * t.heading_deg.to_radians().sin() + t.left_m * t.heading_deg.to_radians().cos()];
+            let sonde = [
+                t.x_m + t.ahead_m * t.heading_deg.to_radians().cos() - t.left_m * t.heading_deg.to_radians().sin(),
+                t.y_m + t.ahead_m * t.heading_deg.to_radians().sin() + t.left_m * t.heading_deg.to_radians().cos(),
+            ];
             let s_sonde = (sonde[0] - from[0]) * ux + (sonde[1] - from[1]) * uy;
             let s_peak = (t.x_m - from[0]) * ux + (t.y_m - from[1]) * uy;
             peak_errors_m.push(s_peak - s_sonde);
@@ -123,7 +128,11 @@ pub fn summarise(sc: &Scenario, run: &SimRun) -> Summary {
             }
         }
     }
-    let detection_range_m = rows.iter().filter(|r| r.snr_db >= 20.0).filter_map(|r| r.truth.map(|t| t.range_m)).fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
+    let detection_range_m = rows
+        .iter()
+        .filter(|r| r.snr_db >= 20.0)
+        .filter_map(|r| r.truth.map(|t| t.range_m))
+        .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
     Summary { methods, peak_errors_m, detection_range_m, readouts: run.rows.len() }
 }
 
@@ -132,7 +141,8 @@ fn null_span(seg: &[&Row], s_peak: f64, from: &[f64; 2], ux: f64, uy: f64) -> Op
     let peak = seg.iter().map(|r| r.strength).fold(0.0, f64::max);
     // The first minimum of strength on each side of the peak (the null), below a fifth of the peak.
     let side = |fore: bool| -> Option<f64> {
-        let mut cands: Vec<(f64, f64)> = seg.iter().map(|r| (pos(r) - s_peak, r.strength)).filter(|(d, _)| if fore { *d > 0.0 } else { *d < 0.0 }).collect();
+        let mut cands: Vec<(f64, f64)> =
+            seg.iter().map(|r| (pos(r) - s_peak, r.strength)).filter(|(d, _)| if fore { *d > 0.0 } else { *d < 0.0 }).collect();
         cands.sort_by(|a, b| a.0.abs().partial_cmp(&b.0.abs()).unwrap_or(std::cmp::Ordering::Equal));
         // Walking out from the peak: the lowest reading before the strength climbs
         // back above 15 % of the peak (the secondary lobe reaches 20 %), once it
@@ -176,7 +186,11 @@ pub fn json_lines(out: &mut dyn Write, rows: &[Row]) -> crate::error::Result<()>
 
 /// Print the readout timeline (every `every_s` seconds) as an aligned table.
 pub fn timeline(out: &mut dyn Write, rows: &[Row], every_s: f64) -> std::io::Result<()> {
-    writeln!(out, "{:>6} {:>6} {:>6} {:>8} {:>6} {:>7} {:>8} {:>5} {:>14} {:>7}  {}", "t s", "x m", "y m", "str dB", "SNR", "bear°", "state", "walk", "depth m ±σ", "true m", "flags")?;
+    writeln!(
+        out,
+        "{:>6} {:>6} {:>6} {:>8} {:>6} {:>7} {:>8} {:>5} {:>14} {:>7}  flags",
+        "t s", "x m", "y m", "str dB", "SNR", "bear°", "state", "walk", "depth m ±σ", "true m"
+    )?;
     let mut next = f64::NEG_INFINITY;
     for r in rows {
         if r.t_s < next {
@@ -218,7 +232,16 @@ pub fn print_summary(out: &mut dyn Write, s: &Summary) -> std::io::Result<()> {
     writeln!(out, "{:<36} {:>6} {:>10} {:>8} {:>8} {:>8}", "depth method", "valid", "estimate", "sigma", "truth", "error")?;
     for m in &s.methods {
         let f = |v: Option<f64>, p: usize| v.map(|v| format!("{v:.p$}")).unwrap_or_else(|| "--".into());
-        writeln!(out, "{:<36} {:>6} {:>10} {:>8} {:>8} {:>8}", m.method, m.count, f(m.estimate_m, 3), f(m.sigma_m, 3), f(m.truth_m, 3), m.error_pct.map(|e| format!("{e:+.1}%")).unwrap_or_else(|| "--".into()))?;
+        writeln!(
+            out,
+            "{:<36} {:>6} {:>10} {:>8} {:>8} {:>8}",
+            m.method,
+            m.count,
+            f(m.estimate_m, 3),
+            f(m.sigma_m, 3),
+            f(m.truth_m, 3),
+            m.error_pct.map(|e| format!("{e:+.1}%")).unwrap_or_else(|| "--".into())
+        )?;
     }
     for (i, e) in s.peak_errors_m.iter().enumerate() {
         writeln!(out, "walk {}: strongest reading {:+.3} m from the point over the sonde", i + 1, e)?;

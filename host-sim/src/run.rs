@@ -215,7 +215,11 @@ pub fn replay_floats<const N: usize>(settings: ReceiverSettings<N>, frames: impl
     replay_with(settings, frames, |rx, f| rx.push(f))
 }
 
-fn replay_with<const N: usize, F>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = F>, mut push: impl FnMut(&mut Receiver<N>, &F) -> Option<Readout<N>>) -> Result<Vec<Row>> {
+fn replay_with<const N: usize, F>(
+    settings: ReceiverSettings<N>,
+    frames: impl Iterator<Item = F>,
+    mut push: impl FnMut(&mut Receiver<N>, &F) -> Option<Readout<N>>,
+) -> Result<Vec<Row>> {
     let fs = settings.detector.sample_rate_hz as f64;
     let mut rx = Receiver::new(settings).map_err(|err| SimError::Config { context: "replay".into(), err })?;
     let mut rows = Vec::new();

@@ -117,7 +117,14 @@ pub struct DetectorSpec {
 
 impl Default for DetectorSpec {
     fn default() -> Self {
-        Self { freq_hz: None, kind: default_kind(), poles: default_poles(), window: default_window(), bandwidth_hz: None, readout_hz: default_rate() }
+        Self {
+            freq_hz: None,
+            kind: default_kind(),
+            poles: default_poles(),
+            window: default_window(),
+            bandwidth_hz: None,
+            readout_hz: default_rate(),
+        }
     }
 }
 
@@ -300,7 +307,8 @@ fn check(path: &str, field: &str, v: f64, lo: f64, hi: f64) -> Result<()> {
 impl Scenario {
     /// Parse and validate TOML text; `path` names the source in errors.
     pub fn from_toml(text: &str, path: &str) -> Result<Self> {
-        let s: Scenario = toml::from_str(text).map_err(|e| SimError::Parse { path: path.to_string(), msg: e.message().to_string() + &span_note(text, e.span()) })?;
+        let s: Scenario = toml::from_str(text)
+            .map_err(|e| SimError::Parse { path: path.to_string(), msg: e.message().to_string() + &span_note(text, e.span()) })?;
         s.validate(path)?;
         Ok(s)
     }
@@ -327,7 +335,7 @@ impl Scenario {
 
     /// Total duration of the motion, s.
     pub fn duration_s(&self) -> f64 {
-        self.motion.iter().map(|m| crate::motion::segment_duration(m)).sum()
+        self.motion.iter().map(crate::motion::segment_duration).sum()
     }
 
     /// Check every value.
@@ -340,7 +348,12 @@ impl Scenario {
         check(p, "receiver.adc_bits", r.adc_bits as f64, 12.0, 32.0)?;
         check(p, "receiver.full_scale_t", r.full_scale_t, 1e-12, 1e-2)?;
         if r.gain_mismatch.len() > self.coils() {
-            return Err(SimError::value(p, "receiver.gain_mismatch", format!("{} values", r.gain_mismatch.len()), format!("at most {} (one per coil)", self.coils())));
+            return Err(SimError::value(
+                p,
+                "receiver.gain_mismatch",
+                format!("{} values", r.gain_mismatch.len()),
+                format!("at most {} (one per coil)", self.coils()),
+            ));
         }
         for (i, g) in r.gain_mismatch.iter().enumerate() {
             check(p, &format!("receiver.gain_mismatch[{i}]"), *g, -0.5, 0.5)?;
@@ -358,7 +371,12 @@ impl Scenario {
         }
         check(p, "detector.poles", d.poles as f64, 1.0, 4.0)?;
         if !["rectangular", "hann", "blackman-harris"].contains(&d.window.as_str()) {
-            return Err(SimError::value(p, "detector.window", format!("\"{}\"", d.window), "\"rectangular\", \"hann\" or \"blackman-harris\""));
+            return Err(SimError::value(
+                p,
+                "detector.window",
+                format!("\"{}\"", d.window),
+                "\"rectangular\", \"hann\" or \"blackman-harris\"",
+            ));
         }
         if let Some(b) = d.bandwidth_hz {
             check(p, "detector.bandwidth_hz", b, 0.05, 50.0)?;
@@ -397,7 +415,12 @@ impl Scenario {
         check(p, "noise.density_t_per_rthz", self.noise.density_t_per_rthz, 0.0, 1e-6)?;
         check(p, "noise.density_counts_per_rthz", self.noise.density_counts_per_rthz, 0.0, 1e9)?;
         if self.noise.dc_offset.len() > self.coils() {
-            return Err(SimError::value(p, "noise.dc_offset", format!("{} values", self.noise.dc_offset.len()), format!("at most {}", self.coils())));
+            return Err(SimError::value(
+                p,
+                "noise.dc_offset",
+                format!("{} values", self.noise.dc_offset.len()),
+                format!("at most {}", self.coils()),
+            ));
         }
         for (i, v) in self.noise.dc_offset.iter().enumerate() {
             check(p, &format!("noise.dc_offset[{i}]"), *v, -1.0, 1.0)?;

@@ -58,7 +58,8 @@ fn trial(sc: &Scenario, bw: f64, seed: u64) -> Result<Trial> {
     let run = simulate(sc, Some(seed), Some(bw as f32))?;
     let settle = run.info.settle_99_s as f64;
     let rows: Vec<&Row> = run.rows.iter().filter(|r| r.t_s > settle).collect();
-    let mut est: Vec<(f64, f64)> = rows.iter().filter_map(|r| r.gradient.depth_m.or(r.fit.depth_m).zip(r.truth.map(|t| t.depth_m))).collect();
+    let mut est: Vec<(f64, f64)> =
+        rows.iter().filter_map(|r| r.gradient.depth_m.or(r.fit.depth_m).zip(r.truth.map(|t| t.depth_m))).collect();
     est.sort_by(|a, b| a.0.partial_cmp(&b.0).unwrap_or(std::cmp::Ordering::Equal));
     let depth_err = (!est.is_empty()).then(|| {
         let (e, t) = est[est.len() / 2];
@@ -108,7 +109,9 @@ pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, progress: bool) -
     }
     let jobs: Vec<(usize, u64)> = (0..bandwidths.len()).flat_map(|i| (0..trials).map(move |t| (i, 1000 + t as u64))).collect();
     let pb = if progress { ProgressBar::new(jobs.len() as u64) } else { ProgressBar::hidden() };
-    pb.set_style(ProgressStyle::with_template("{bar:40} {pos}/{len} runs {elapsed_precise}").unwrap_or_else(|_| ProgressStyle::default_bar()));
+    pb.set_style(
+        ProgressStyle::with_template("{bar:40} {pos}/{len} runs {elapsed_precise}").unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
     let results: Vec<(usize, Result<Trial>)> = jobs
         .par_iter()
         .map(|&(i, seed)| {

@@ -128,13 +128,22 @@ impl Synth {
         }
         let sigma_soil = sc.soil.conductivity_s_per_m;
         let mut srcs = Vec::new();
-        let ph = |k: u64| (((seed ^ 0x5DEE_CE66).wrapping_mul(0x2545_F491_4F6C_DD1D).wrapping_add(k.wrapping_mul(0x9E37_79B9)) >> 11) as f64) / (1u64 << 53) as f64 * std::f64::consts::TAU;
+        let ph = |k: u64| {
+            (((seed ^ 0x5DEE_CE66).wrapping_mul(0x2545_F491_4F6C_DD1D).wrapping_add(k.wrapping_mul(0x9E37_79B9)) >> 11) as f64)
+                / (1u64 << 53) as f64
+                * std::f64::consts::TAU
+        };
         let dip = |s: &crate::scenario::SondeSpec, k: u64| {
             let f = s.freq_hz * (1.0 + s.ppm * 1e-6);
             Src {
                 freq_hz: f,
                 phase0: ph(k),
-                kind: Kind::Dipole { moment: s.moment_am2, pos0: [s.x_m, s.y_m, -s.depth_m], axis: axis(s.yaw_deg.to_radians(), s.pitch_deg.to_radians()), speed: s.push_speed_m_s },
+                kind: Kind::Dipole {
+                    moment: s.moment_am2,
+                    pos0: [s.x_m, s.y_m, -s.depth_m],
+                    axis: axis(s.yaw_deg.to_radians(), s.pitch_deg.to_radians()),
+                    speed: s.push_speed_m_s,
+                },
                 delta_m: skin_depth_m(f, sigma_soil),
             }
         };
@@ -161,7 +170,12 @@ impl Synth {
                 let near = tones.iter().any(|t| (f - t).abs() <= 200.0);
                 if h <= 5 || near {
                     let a = m.field_t * m.harmonic_decay.powi(h as i32 - 1);
-                    srcs.push(Src { freq_hz: f, phase0: ph(100 + h as u64), kind: Kind::Uniform { field: [dir[0] * a, dir[1] * a, dir[2] * a] }, delta_m: f64::INFINITY });
+                    srcs.push(Src {
+                        freq_hz: f,
+                        phase0: ph(100 + h as u64),
+                        kind: Kind::Uniform { field: [dir[0] * a, dir[1] * a, dir[2] * a] },
+                        delta_m: f64::INFINITY,
+                    });
                 }
             }
         }
@@ -173,10 +187,12 @@ impl Synth {
         });
         let skew_rot = srcs
             .iter()
-            .flat_map(|s| (0..coils).map(move |c| {
-                let a = std::f64::consts::TAU * s.freq_hz * c as f64 * r.skew_s;
-                (a.cos(), a.sin())
-            }))
+            .flat_map(|s| {
+                (0..coils).map(move |c| {
+                    let a = std::f64::consts::TAU * s.freq_hz * c as f64 * r.skew_s;
+                    (a.cos(), a.sin())
+                })
+            })
             .collect();
         let motion = Motion::new(&sc.motion, sc.seed);
         let total = (motion.duration_s() * fs) as u64;
@@ -212,7 +228,9 @@ impl Synth {
 
     fn sonde_pos(src: &Src, t: f64) -> V {
         match src.kind {
-            Kind::Dipole { pos0, axis, speed, .. } => [pos0[0] + axis[0] * speed * t, pos0[1] + axis[1] * speed * t, pos0[2] + axis[2] * speed * t],
+            Kind::Dipole { pos0, axis, speed, .. } => {
+                [pos0[0] + axis[0] * speed * t, pos0[1] + axis[1] * speed * t, pos0[2] + axis[2] * speed * t]
+            }
             _ => [0.0; 3],
         }
     }
@@ -257,7 +275,15 @@ impl Synth {
         };
         let mut b = yaw - pose.heading_rad;
         b = (b + std::f64::consts::FRAC_PI_2).rem_euclid(std::f64::consts::PI) - std::f64::consts::FRAC_PI_2;
-        Truth { pose, sonde_m: sp, depth_m: self.height - sp[2], ahead_m: c * dx + s * dy, left_m: -s * dx + c * dy, range_m: (dx * dx + dy * dy).sqrt(), axis_bearing_rad: b }
+        Truth {
+            pose,
+            sonde_m: sp,
+            depth_m: self.height - sp[2],
+            ahead_m: c * dx + s * dy,
+            left_m: -s * dx + c * dy,
+            range_m: (dx * dx + dy * dy).sqrt(),
+            axis_bearing_rad: b,
+        }
     }
 
     /// Duration of the stream, s.

@@ -33,7 +33,14 @@ pub fn walk(sc: &Scenario, out_dir: &Path, json: bool, seed: Option<u64>, out: &
     )
     .map_err(io)?;
     let worst = run.mains.worst_rejection_db();
-    writeln!(out, "mains: nearest harmonics {:.0} Hz and {:.0} Hz, worst neighbouring rejection {:.1} dB", run.mains.nearest(50.0).freq_hz, run.mains.nearest(60.0).freq_hz, worst).map_err(io)?;
+    writeln!(
+        out,
+        "mains: nearest harmonics {:.0} Hz and {:.0} Hz, worst neighbouring rejection {:.1} dB",
+        run.mains.nearest(50.0).freq_hz,
+        run.mains.nearest(60.0).freq_hz,
+        worst
+    )
+    .map_err(io)?;
     writeln!(out).map_err(io)?;
     timeline(out, &run.rows, 0.5).map_err(io)?;
     let summary = summarise(sc, &run);
@@ -45,8 +52,18 @@ pub fn walk(sc: &Scenario, out_dir: &Path, json: bool, seed: Option<u64>, out: &
         x_label: "time (s)".into(),
         y_label: "level (dB)".into(),
         series: vec![
-            Series { name: "horizontal field, dB re 1 nT".into(), points: t.iter().zip(&run.rows).map(|(t, r)| (*t, r.strength_db + 180.0)).collect(), color: RGBColor(31, 119, 180), dots: false },
-            Series { name: "SNR of the lower along coil, dB".into(), points: t.iter().zip(&run.rows).map(|(t, r)| (*t, r.snr_db)).collect(), color: RGBColor(255, 127, 14), dots: false },
+            Series {
+                name: "horizontal field, dB re 1 nT".into(),
+                points: t.iter().zip(&run.rows).map(|(t, r)| (*t, r.strength_db + 180.0)).collect(),
+                color: RGBColor(31, 119, 180),
+                dots: false,
+            },
+            Series {
+                name: "SNR of the lower along coil, dB".into(),
+                points: t.iter().zip(&run.rows).map(|(t, r)| (*t, r.snr_db)).collect(),
+                color: RGBColor(255, 127, 14),
+                dots: false,
+            },
         ],
         y_range: None,
     };

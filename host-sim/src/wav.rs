@@ -110,7 +110,12 @@ pub fn read(path: &Path) -> Result<Recording> {
             let v: std::result::Result<Vec<f32>, _> = r.samples::<f32>().collect();
             Samples::Floats(v.map_err(|e| bad(format!("corrupt sample data: {e}")))?)
         }
-        (f, b) => return Err(bad(format!("unsupported sample format {b}-bit {}; allowed 16/24/32-bit integer or 32-bit float", if f == hound::SampleFormat::Float { "float" } else { "integer" }))),
+        (f, b) => {
+            return Err(bad(format!(
+                "unsupported sample format {b}-bit {}; allowed 16/24/32-bit integer or 32-bit float",
+                if f == hound::SampleFormat::Float { "float" } else { "integer" }
+            )))
+        }
     };
     Ok(Recording { channels: spec.channels as usize, sample_rate_hz: spec.sample_rate as f64, data })
 }

@@ -226,6 +226,7 @@ fn bad_inputs_fail_with_one_clear_line() {
     one_line_error(&o, "x.wav");
     assert!(!d.join("no").exists());
     // No stray temporary files.
-    let stray: Vec<_> = std::fs::read_dir(d).unwrap().filter_map(|e| e.ok()).filter(|e| e.file_name().to_string_lossy().starts_with(".tmp-")).collect();
+    let stray: Vec<_> =
+        std::fs::read_dir(d).unwrap().filter_map(|e| e.ok()).filter(|e| e.file_name().to_string_lossy().starts_with(".tmp-")).collect();
     assert!(stray.is_empty(), "{stray:?}");
 }

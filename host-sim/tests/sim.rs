@@ -31,10 +31,12 @@ fn same_seed_same_samples_other_seed_other_noise() {
     let grab = |seed| {
         let mut s = Synth::new(&sc, seed);
         let mut f = [0i32; 4];
-        (0..5000).map(|_| {
-            s.next_codes(&mut f);
-            f
-        }).collect::<Vec<_>>()
+        (0..5000)
+            .map(|_| {
+                s.next_codes(&mut f);
+                f
+            })
+            .collect::<Vec<_>>()
     };
     assert_eq!(grab(None), grab(None));
     assert_ne!(grab(None), grab(Some(99)));

@@ -4,10 +4,11 @@
 //! and cos for every sample, (b) the bin taken from a rustfft transform of each
 //! block. Run: `cargo bench -p undertone-tests --bench throughput`.
 
-use criterion::{black_box, criterion_group, criterion_main, Criterion, Throughput};
+use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use rustfft::{num_complex::Complex, FftPlanner};
+use std::hint::black_box;
 use undertone_dsp::detect::input::InputScale;
-use undertone_dsp::{Beacon, DetectorKind, DetectorSettings, Detector, Head, Receiver, ReceiverSettings, Window};
+use undertone_dsp::{Beacon, Detector, DetectorKind, DetectorSettings, Head, Receiver, ReceiverSettings, Window};
 
 const FS: f32 = 48_000.0;
 const FRAMES: usize = 48_000; // one second of 4 channels

@@ -18,7 +18,19 @@ pub fn build_board() -> Result<PathBuf, String> {
     let ws = workspace();
     let out = Command::new(cargo())
         .current_dir(&ws)
-        .args(["build", "-p", "undertone-firmware", "--features", "board", "--bin", "undertone-board", "--target", "thumbv7em-none-eabihf", "--profile", "board"])
+        .args([
+            "build",
+            "-p",
+            "undertone-firmware",
+            "--features",
+            "board",
+            "--bin",
+            "undertone-board",
+            "--target",
+            "thumbv7em-none-eabihf",
+            "--profile",
+            "board",
+        ])
         .output()
         .map_err(|e| format!("cannot run cargo: {e}"))?;
     if !out.status.success() {
@@ -51,13 +63,30 @@ pub fn have_qemu() -> bool {
 /// Run an image under QEMU `mps2-an386` with `-icount shift=0`; its semihosting output.
 pub fn run_qemu(image: &Path) -> Result<String, String> {
     let out = Command::new("timeout")
-        .args(["300", "qemu-system-arm", "-machine", "mps2-an386", "-cpu", "cortex-m4", "-nographic", "-monitor", "none", "-serial", "none"])
+        .args([
+            "300",
+            "qemu-system-arm",
+            "-machine",
+            "mps2-an386",
+            "-cpu",
+            "cortex-m4",
+            "-nographic",
+            "-monitor",
+            "none",
+            "-serial",
+            "none",
+        ])
         .args(["-semihosting-config", "enable=on,target=native", "-icount", "shift=0", "-kernel"])
         .arg(image)
         .output()
         .map_err(|e| format!("cannot run qemu-system-arm: {e}"))?;
     if !out.status.success() {
-        return Err(format!("QEMU run failed ({}):\n{}\n{}", out.status, String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr)));
+        return Err(format!(
+            "QEMU run failed ({}):\n{}\n{}",
+            out.status,
+            String::from_utf8_lossy(&out.stdout),
+            String::from_utf8_lossy(&out.stderr)
+        ));
     }
     Ok(String::from_utf8_lossy(&out.stdout).to_string())
 }

@@ -135,7 +135,7 @@ fn guidance_offset_inverts_the_ratio() {
 fn phasors_from(readings: &[f32; 4], phase: f32, scale: f32) -> [C32; 4] {
     let mut p = [C32::ZERO; 4];
     for c in 0..4 {
-        p[c] = C32::from_angle(phase).scale(readings[c] * scale);
+        p[c] = undertone_dsp::phasor::unit(phase).scale(readings[c] * scale);
     }
     p
 }

@@ -2,6 +2,7 @@
 
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::detect::scan::{scan, ScanSettings};
+use undertone_dsp::phasor::Phasor;
 use undertone_dsp::{Beacon, Detector, DetectorKind, DetectorSettings, Flags, Param, Window};
 use undertone_tests::{tone, Noise};
 
@@ -18,7 +19,12 @@ fn usual_presets_and_their_neighbouring_harmonics() {
     // Common practice of the trade (no published source): 512 Hz and 640 Hz are the two
     // usual sonde frequencies. Harmonic positions: REFERENCES §9 (50/60 Hz grids).
     let fs = 96_000.0;
-    for (b, near50, near60) in [(Beacon::Hz512, 500.0, 540.0), (Beacon::Hz640, 650.0, 660.0), (Beacon::Hz8192, 8200.0, 8220.0), (Beacon::Hz32768, 32750.0, 32760.0)] {
+    for (b, near50, near60) in [
+        (Beacon::Hz512, 500.0, 540.0),
+        (Beacon::Hz640, 650.0, 660.0),
+        (Beacon::Hz8192, 8200.0, 8220.0),
+        (Beacon::Hz32768, 32750.0, 32760.0),
+    ] {
         let det = Detector::<1>::new(&DetectorSettings::new(fs, b), unit()).unwrap();
         let m = det.mains();
         assert_eq!(m.nearest(50.0).freq_hz, near50, "{b:?}");
@@ -54,7 +60,7 @@ fn measured_rejection_of_500_hz_matches_the_reported_figure() {
         for (n, v) in x.iter().enumerate() {
             if let Some(d) = det.push(&[*v]) {
                 if n as f32 > 3.0 * fs {
-                    worst = worst.max(d.phasors[0].abs());
+                    worst = worst.max(d.phasors[0].magnitude());
                 }
             }
         }

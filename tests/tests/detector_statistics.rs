@@ -3,6 +3,7 @@
 //! off-bin tones on every coil.
 
 use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::phasor::Phasor;
 use undertone_dsp::{Beacon, Detection, Detector, DetectorKind, DetectorSettings, Window};
 use undertone_tests::{mean_var, Noise};
 
@@ -34,7 +35,12 @@ fn tone_amplitude_and_phase_on_every_coil_both_kinds() {
     let f0 = 512.37;
     let phi = 0.9f64;
     let amps = [1.0f64, -0.5, 0.25];
-    for kind in [DetectorKind::Block { window: Window::BlackmanHarris4 }, DetectorKind::Block { window: Window::Hann }, DetectorKind::LockIn { poles: 2 }, DetectorKind::LockIn { poles: 4 }] {
+    for kind in [
+        DetectorKind::Block { window: Window::BlackmanHarris4 },
+        DetectorKind::Block { window: Window::Hann },
+        DetectorKind::LockIn { poles: 2 },
+        DetectorKind::LockIn { poles: 4 },
+    ] {
         let s = settings(fs, f0, 4.0, kind, 20.0);
         let mut det = Detector::<3>::new(&s, unit()).unwrap();
         let w = 2.0 * std::f64::consts::PI * f0 as f64 / fs as f64;
@@ -94,15 +100,15 @@ fn noise_only_magnitude_is_rayleigh() {
     let outs = run(&mut det, 80 * 40_000, |_| [noise.sample() as f32]);
     let n = outs.len() as f64;
     let sigma = (2.0 * 50.0 / fs as f64).sqrt(); // per-component σ from 2σw²B/fs
-    // T/σ for P_fa = 1e-2 and 1e-3 (REFERENCES §6).
+                                                 // T/σ for P_fa = 1e-2 and 1e-3 (REFERENCES §6).
     for (t_over_sigma, pfa) in [(3.034854, 1e-2), (3.716922, 1e-3)] {
-        let k = outs.iter().filter(|d| d.phasors[0].abs() as f64 > t_over_sigma * sigma).count() as f64;
+        let k = outs.iter().filter(|d| d.phasors[0].magnitude() as f64 > t_over_sigma * sigma).count() as f64;
         let expect = n * pfa;
         let sd = (n * pfa * (1.0 - pfa)).sqrt();
         assert!((k - expect).abs() < 4.0 * sd, "P_fa {pfa}: {k} exceedances of {n}, expected {expect} ± {sd}");
     }
     // Mean of a Rayleigh magnitude: 1.253314σ (REFERENCES §6).
-    let mean = outs.iter().map(|d| d.phasors[0].abs() as f64).sum::<f64>() / n;
+    let mean = outs.iter().map(|d| d.phasors[0].magnitude() as f64).sum::<f64>() / n;
     assert!((mean / sigma / 1.253314 - 1.0).abs() < 0.01, "mean {}", mean / sigma);
 }
 
@@ -120,7 +126,7 @@ fn amplitude_variance_reaches_cramer_rao_bound() {
     let mut noise = Noise::new(9, sigma);
     let w = 2.0 * std::f64::consts::PI * 500.0 / fs as f64;
     let outs = run(&mut det, len * 4000, |n| [((a * (w * n as f64 + 0.4).cos()) + noise.sample()) as f32]);
-    let amps: Vec<f64> = outs.iter().map(|d| d.phasors[0].abs() as f64).collect();
+    let amps: Vec<f64> = outs.iter().map(|d| d.phasors[0].magnitude() as f64).collect();
     let (m, v) = mean_var(&amps);
     let crb = 2.0 * sigma * sigma / len as f64;
     assert!((v / crb - 1.0).abs() < 0.1, "var {v} CRB {crb} ratio {}", v / crb);

@@ -35,7 +35,9 @@ fn emulator_and_host_agree() {
         if std::env::var("UNDERTONE_REQUIRE_QEMU").as_deref() == Ok("1") {
             panic!("UNDERTONE_REQUIRE_QEMU=1 but qemu-system-arm is not installed (apt-get install -y qemu-system-arm)");
         }
-        println!("emulator check NOT RUN: qemu-system-arm not found (install it, or set UNDERTONE_REQUIRE_QEMU=1 to make this check mandatory)");
+        println!(
+            "emulator check NOT RUN: qemu-system-arm not found (install it, or set UNDERTONE_REQUIRE_QEMU=1 to make this check mandatory)"
+        );
         return;
     }
     let image = build_emu().unwrap_or_else(|e| panic!("{e}"));
@@ -68,7 +70,8 @@ fn emulator_and_host_agree() {
         compared += 1;
     }
     // Over the sonde the target reads the emulated depth (1.2 m below the lower coil).
-    let depth: f64 = target.iter().rev().find(|l| l.starts_with("R ")).and_then(|l| l.split_whitespace().nth(7)).and_then(|v| v.parse().ok()).unwrap();
+    let depth: f64 =
+        target.iter().rev().find(|l| l.starts_with("R ")).and_then(|l| l.split_whitespace().nth(7)).and_then(|v| v.parse().ok()).unwrap();
     assert!((depth - 1.2).abs() < 0.05, "depth {depth}");
     let frames = field(last, "frames=");
     let rx_ticks = field(last, "receiver_ticks=");

@@ -53,7 +53,12 @@ fn loop_exact_field_against_dipole_table() {
     // elliptic formula, numerical Biot–Savart and magpylib agree to 9 digits). I = 1 A, a = 1 m,
     // moment m = I·πa². The dipole model must reproduce the tabulated dipole/exact − 1.
     let m = std::f32::consts::PI;
-    for (rho, exact, want_err) in [(2.0f32, -5.417318486e-8f64, -0.275104f64), (5.0, -2.631284391e-9, -0.0448489), (10.0, -3.177307523e-10, -0.0112406), (20.0, -3.938064314e-11, -0.00281191)] {
+    for (rho, exact, want_err) in [
+        (2.0f32, -5.417318486e-8f64, -0.275104f64),
+        (5.0, -2.631284391e-9, -0.0448489),
+        (10.0, -3.177307523e-10, -0.0112406),
+        (20.0, -3.938064314e-11, -0.00281191),
+    ] {
         let b = dipole_field([0.0, 0.0, m], [0.0; 3], [rho, 0.0, 0.0]);
         let err = b[2] as f64 / exact - 1.0;
         assert!((err - want_err).abs() < 2e-5, "ρ/a = {rho}: {err} vs {want_err}");

@@ -19,7 +19,13 @@ fn readings(x: f32, y: f32, h: f32, yaw: f32, pitch: f32) -> [f32; 6] {
 #[test]
 fn noise_free_recovers_offsets_depth_yaw_pitch() {
     let head = Head::triads6();
-    let cases = [(0.0f32, 0.0f32, 1.0f32, 0.0f32, 0.0f32), (0.3, -0.2, 1.5, 0.4, 0.1), (-0.5, 0.4, 2.5, -0.8, -0.2), (0.8, 0.1, 0.8, 1.2, 0.3), (0.2, 0.6, 4.0, -0.3, 0.05)];
+    let cases = [
+        (0.0f32, 0.0f32, 1.0f32, 0.0f32, 0.0f32),
+        (0.3, -0.2, 1.5, 0.4, 0.1),
+        (-0.5, 0.4, 2.5, -0.8, -0.2),
+        (0.8, 0.1, 0.8, 1.2, 0.3),
+        (0.2, 0.6, 4.0, -0.3, 0.05),
+    ];
     for (x, y, h, yaw, pitch) in cases {
         let a = readings(x, y, h, yaw, pitch);
         let sigma = [K * 1e-6; 6];

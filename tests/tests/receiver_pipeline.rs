@@ -4,6 +4,7 @@ use proptest::prelude::*;
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::field::Source;
 use undertone_dsp::locate::components::FieldVector;
+use undertone_dsp::phasor::Phasor;
 use undertone_dsp::{Beacon, DetectorSettings, Head, Receiver, ReceiverSettings, C32};
 use undertone_tests::Noise;
 
@@ -72,12 +73,12 @@ fn gain_requests_and_rescaling_keep_readouts_continuous() {
     let out = run_station(&mut rx, r.map(|v| v * k), 1.5, 0.0, 3);
     let g = out.gain_request.expect("0.9 of full scale asks for less gain");
     assert_eq!((g.channel, g.up), (0, false));
-    let before = out.phasors[0].abs();
+    let before = out.phasors[0].magnitude();
     // The firmware halves channel 0's gain: codes halve, the receiver rescales.
     rx.apply_gain_change(0, 0.5).unwrap();
     let rd = [r[0] * k * 0.5, r[1] * k, r[2] * k, r[3] * k];
     let out = run_station(&mut rx, rd, 0.5, 0.0, 4);
-    assert!((out.phasors[0].abs() / before - 1.0).abs() < 1e-3, "{} vs {before}", out.phasors[0].abs());
+    assert!((out.phasors[0].magnitude() / before - 1.0).abs() < 1e-3, "{} vs {before}", out.phasors[0].magnitude());
 }
 
 fn phasor() -> impl Strategy<Value = C32> {
@@ -109,7 +110,7 @@ proptest! {
         let head = Head::reference4();
         let src = Source::Dipole { moment_am2: [yaw.cos(), yaw.sin(), 0.0], pos_m: [x, 0.0, -h] };
         let r = head.readings(&src, [0.0; 3], 0.0);
-        let base: [C32; 4] = r.map(|v| C32::from_angle(phase).scale(v * 1e7));
+        let base: [C32; 4] = r.map(|v| undertone_dsp::phasor::unit(phase).scale(v * 1e7));
         let sgn = if flip { -k } else { k };
         let other: [C32; 4] = base.map(|p| p.scale(sgn));
         let sig = [1e-3f32; 4];

@@ -8,13 +8,13 @@ use undertone_dsp::field::Source;
 use undertone_dsp::format::{length, LengthUnit};
 use undertone_dsp::locate::calibration::{calibrate, pre_job_check, CalInput, Calibration};
 use undertone_dsp::locate::depth::gradient_depth;
-use undertone_dsp::{Beacon, DetectorSettings, FieldModel, Flags, Head, Param, Receiver, ReceiverSettings, C32};
+use undertone_dsp::{Beacon, DetectorSettings, FieldModel, Flags, Head, Param, Receiver, ReceiverSettings};
 
 fn detection<const N: usize>(r: &[f32; N], sigma: f32) -> undertone_dsp::Detection<N> {
     undertone_dsp::Detection {
         sample_index: 0,
         t_s: 0.0,
-        phasors: r.map(|v| C32::from_angle(0.7).scale(v)),
+        phasors: r.map(|v| undertone_dsp::phasor::unit(0.7).scale(v)),
         noise_sigma: [sigma; N],
         stats: Default::default(),
         freq_offset_hz: 0.0,
@@ -67,10 +67,16 @@ fn gain_calibration_corrects_upper_coil_mismatch() {
     // Upper coil 3 % hot: uncorrected gradient depth is wrong; after calibration at 1.0 m
     // the depth at 2.0 m comes out right (h = s/(R^(1/3) − 1), REFERENCES §1).
     let head = Head::reference4();
-    let read = |h: f32| head.readings(&Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -h] }, [0.0; 3], 0.0).map(|v| v.abs() * 1e9);
+    let read = |h: f32| {
+        head.readings(&Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -h] }, [0.0; 3], 0.0).map(|v| v.abs() * 1e9)
+    };
     let r1 = read(1.0);
     let up1 = r1[3] * 1.03;
-    let cal = calibrate(FieldModel::Dipole, &CalInput { distance_m: 1.0, spacing_m: 0.4, a_low: r1[0], a_up: up1, sigma_low: 1e-3, sigma_up: 1e-3, vertical_ratio: 0.0 }).unwrap();
+    let cal = calibrate(
+        FieldModel::Dipole,
+        &CalInput { distance_m: 1.0, spacing_m: 0.4, a_low: r1[0], a_up: up1, sigma_low: 1e-3, sigma_up: 1e-3, vertical_ratio: 0.0 },
+    )
+    .unwrap();
     assert!((cal.upper_gain - 1.0 / 1.03).abs() < 1e-4, "{cal:?}");
     let r2 = read(2.0);
     let raw = gradient_depth(FieldModel::Dipole, r2[0], r2[3] * 1.03, 0.0, 0.0, 0.4);

@@ -9,11 +9,11 @@
 //! the same phasor from every block. The window is evaluated per sample from one
 //! `cosf` and Chebyshev recursions (no table, no allocation).
 
-use crate::complex::C32;
 use crate::detect::goertzel::{Goertzel, GoertzelState};
 use crate::detect::nco::{phase_step, reference_at};
 use crate::detect::settings::MAX_OVERLAP;
 use crate::detect::window::Window;
+use crate::phasor::C32;
 
 /// Built block-detector coefficients.
 #[derive(Clone, Copy, Debug, PartialEq)]

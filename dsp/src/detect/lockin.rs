@@ -26,9 +26,9 @@
 //! the low-pass runs once per `M` samples, the oscillator's exact re-sync once
 //! per 256 samples.
 
-use crate::complex::C32;
 use crate::detect::nco::{Nco, RESYNC};
 use crate::detect::settings::enbw_tau_product;
+use crate::phasor::C32;
 
 /// Highest intermediate rate after the boxcar, Hz.
 pub const MAX_INTERMEDIATE_RATE_HZ: f32 = 4_000.0;
@@ -297,7 +297,7 @@ impl<const N: usize> LockInState<N> {
     }
 
     /// Mix raw codes into the boxcar (unscaled; the scale is applied when the
-    /// boxcar ends). Takes at most what [`Self::room`] allows; returns frames taken.
+    /// boxcar ends). Takes at most what `room` allows; returns frames taken.
     /// `or` collects the OR of the codes' one's-complement magnitudes
     /// (`k ^ (k >> 31)`), a cheap bound on the largest |code| (see `InputScale::code_stats`).
     ///
@@ -328,7 +328,7 @@ impl<const N: usize> LockInState<N> {
                 re[c] += x * o.re;
                 im[c] += x * o.im;
             }
-            o = o * r;
+            o *= r;
         }
         *or = bits;
         for c in 0..N {
@@ -392,7 +392,7 @@ impl<const N: usize> LockInState<N> {
         self.count = 0;
         let k = 2.0 / cfg.m as f32;
         let np = cfg.poles as usize;
-        if self.produced % RESYNC as u64 == 0 {
+        if self.produced.is_multiple_of(RESYNC as u64) {
             self.probe.sync(self.produced);
         }
         let shift = self.probe.value;

@@ -21,9 +21,9 @@ pub mod scan;
 pub mod settings;
 pub mod window;
 
-use crate::complex::C32;
 use crate::error::{ConfigError, Param};
 use crate::flags::Flags;
+use crate::phasor::C32;
 use block::{BlockDetector, BlockState};
 use input::{ChannelStats, InputScale};
 use lockin::{LockIn, LockInState};

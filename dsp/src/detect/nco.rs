@@ -9,14 +9,13 @@
 //! magnitude and angle) cannot build up beyond about 1.5e-5 in that span. Integer and single-precision only, so the
 //! Cortex-M4F and the PC compute the same values.
 
-use crate::complex::C32;
+use crate::phasor::C32;
 
 /// Samples between exact re-synchronisations of the oscillator.
 pub const RESYNC: u32 = 256;
 
 /// Oscillator at a fixed frequency.
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Nco {
     step: u32,
     rotor: C32,
@@ -56,7 +55,7 @@ impl Nco {
     /// Advance one sample.
     #[inline(always)]
     pub fn step(&mut self) {
-        self.value = self.value * self.rotor;
+        self.value *= self.rotor;
     }
 
     /// Set the value exactly for absolute sample index `n`.

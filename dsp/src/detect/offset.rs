@@ -6,14 +6,13 @@
 //! every coil whatever its sign, weighted by power. `z` is smoothed
 //! (`z̄ ← z̄ + β(z − z̄)`) and `Δf = arg(z̄)/(2πT)`, unambiguous within ±1/(2T).
 
-use crate::complex::C32;
+use crate::phasor::{Phasor, C32};
 
 /// Fraction of the detection bandwidth an offset may take before it is flagged.
 pub const OFFSET_FLAG_FRACTION: f32 = 0.25;
 
 /// Running estimate of the tone's frequency offset.
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct OffsetEstimator<const N: usize> {
     prev: [C32; N],
     have_prev: bool,
@@ -36,7 +35,7 @@ impl<const N: usize> OffsetEstimator<N> {
                 z += p[c] * self.prev[c].conj();
             }
             // Normalise so a strong reading does not swamp the average's time constant.
-            let m = z.abs();
+            let m = z.magnitude();
             if m > 0.0 && m.is_finite() {
                 let u = z.scale(1.0 / m);
                 self.z += (u - self.z).scale(self.beta);
@@ -54,6 +53,6 @@ impl<const N: usize> OffsetEstimator<N> {
         if self.z.norm_sqr() == 0.0 {
             return 0.0;
         }
-        self.z.arg() / (2.0 * core::f32::consts::PI * self.interval_s)
+        self.z.angle_rad() / (2.0 * core::f32::consts::PI * self.interval_s)
     }
 }

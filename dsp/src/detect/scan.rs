@@ -126,7 +126,7 @@ fn insert_top<const K: usize>(v: &mut Vec<(f32, f32), K>, p: f32, f: f32) {
     }
 }
 
-/// |Σ w[n]x[n]e^{−j2πfn/fs}|² (windowed DTFT power) at `f_hz`.
+/// `|Σ w[n]x[n]e^{−j2πfn/fs}|²` (windowed DTFT power) at `f_hz`.
 pub fn windowed_power(x: &[f32], fs: f32, f_hz: f32, window: Window) -> f32 {
     let g = Goertzel::from_cycles_per_sample(f_hz as f64 / fs as f64);
     let len = x.len() as u32;

@@ -63,10 +63,10 @@ impl Beacon {
     /// The preset matching a frequency exactly, else `Custom`.
     pub fn from_hz(f: f32) -> Self {
         match f {
-            x if x == 512.0 => Beacon::Hz512,
-            x if x == 640.0 => Beacon::Hz640,
-            x if x == 8192.0 => Beacon::Hz8192,
-            x if x == 32768.0 => Beacon::Hz32768,
+            512.0 => Beacon::Hz512,
+            640.0 => Beacon::Hz640,
+            8192.0 => Beacon::Hz8192,
+            32768.0 => Beacon::Hz32768,
             x => Beacon::Custom(x),
         }
     }
@@ -114,13 +114,7 @@ impl DetectorSettings {
     /// Settings with the default detector and bandwidth for `beacon`, 20 readouts/s.
     pub fn new(sample_rate_hz: f32, beacon: Beacon) -> Self {
         let kind = DetectorKind::DEFAULT;
-        Self {
-            sample_rate_hz,
-            beacon,
-            bandwidth_hz: default_bandwidth_hz(beacon, kind),
-            kind,
-            readout_rate_hz: 20.0,
-        }
+        Self { sample_rate_hz, beacon, bandwidth_hz: default_bandwidth_hz(beacon, kind), kind, readout_rate_hz: 20.0 }
     }
 
     /// Same settings with another detector kind and that kind's default bandwidth.

@@ -9,7 +9,7 @@
 //! The frequency response at an offset of `δ` bins is computed in closed form
 //! from Dirichlet kernels, so rejection figures cost O(1), not O(L).
 
-use crate::complex::C32;
+use crate::phasor::C32;
 
 /// Window applied to each block.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

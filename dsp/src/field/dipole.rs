@@ -27,9 +27,5 @@ pub fn dipole_field(moment_am2: V3, source_m: V3, point_m: V3) -> V3 {
     let rh = scale(r, 1.0 / d);
     let k = MU0_OVER_4PI / (d * d * d);
     let mr = dot(moment_am2, rh);
-    [
-        k * (3.0 * mr * rh[0] - moment_am2[0]),
-        k * (3.0 * mr * rh[1] - moment_am2[1]),
-        k * (3.0 * mr * rh[2] - moment_am2[2]),
-    ]
+    [k * (3.0 * mr * rh[0] - moment_am2[0]), k * (3.0 * mr * rh[1] - moment_am2[1]), k * (3.0 * mr * rh[2] - moment_am2[2])]
 }

@@ -13,9 +13,9 @@
 //! that is zero, the across reading), so the horizontal field direction `û`
 //! faces forward and `bearing ∈ [−90°, 90°]` (the axis's 180° ambiguity).
 
-use crate::complex::C32;
 use crate::field::head::Head;
 use crate::field::vec3::V3;
+use crate::phasor::{Phasor, C32};
 
 /// The field seen by the head at one readout, in field units after coil gains.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -48,8 +48,8 @@ impl<const N: usize> FieldVector<N> {
                 s2 += *v * *v;
             }
         }
-        let theta = if s2.norm_sqr() > 0.0 && s2.is_finite() { 0.5 * s2.arg() } else { 0.0 };
-        let rot = C32::from_angle(-theta);
+        let theta = if s2.norm_sqr() > 0.0 && s2.is_finite() { 0.5 * s2.angle_rad() } else { 0.0 };
+        let rot = crate::phasor::unit(-theta);
         let mut signed = [0.0; N];
         let mut sigma = [0.0; N];
         let (mut qq, mut tot) = (0.0f32, 0.0f32);
@@ -80,14 +80,18 @@ impl<const N: usize> FieldVector<N> {
         let total = libm::hypotf(horizontal, lower[2]);
         let bearing_rad = if horizontal > 0.0 { libm::atan2f(lower[1], lower[0]) } else { 0.0 };
         let quadrature = if tot > 0.0 && tot.is_finite() { libm::sqrtf(qq / tot) } else { 0.0 };
-        Self { signed, sigma, quadrature, lower, upper, horizontal, total, bearing_rad, }
+        Self { signed, sigma, quadrature, lower, upper, horizontal, total, bearing_rad }
     }
 
     /// Signed vertical over horizontal field at the lower coils, `ρ = Bz/|Bh|` (0 when no field).
     pub fn vertical_ratio(&self) -> f32 {
         if self.horizontal > 0.0 {
             let r = self.lower[2] / self.horizontal;
-            if r.is_finite() { r } else { 0.0 }
+            if r.is_finite() {
+                r
+            } else {
+                0.0
+            }
         } else {
             0.0
         }

@@ -99,7 +99,7 @@ pub fn gradient_depth(model: FieldModel, a_low: f32, a_up: f32, sigma_low: f32, 
     if !(spacing_m > 0.0) {
         return DepthEstimate::none(Invalid::NoCoils);
     }
-    if !(a_low > 0.0 && a_up > 0.0) || !a_low.is_finite() || !a_up.is_finite() {
+    if !(a_low > 0.0 && a_up > 0.0 && a_low.is_finite() && a_up.is_finite()) {
         return DepthEstimate::none(Invalid::BadRatio);
     }
     let r = a_low / a_up;
@@ -156,7 +156,7 @@ pub fn pitched_null_distances(alpha_rad: f32) -> (f32, f32) {
 /// Uncertainties by first-order propagation (numerical derivatives).
 pub fn null_span_depth(fore_m: f32, aft_m: f32, sigma_m: f32) -> NullSpanFix {
     let bad = NullSpanFix { depth: DepthEstimate::none(Invalid::BadInput), pitch_rad: 0.0, pitch_sigma_rad: 0.0 };
-    if !(fore_m > 0.0 && aft_m > 0.0 && sigma_m >= 0.0) || !fore_m.is_finite() || !aft_m.is_finite() || !sigma_m.is_finite() {
+    if !(fore_m > 0.0 && aft_m > 0.0 && sigma_m >= 0.0 && fore_m.is_finite() && aft_m.is_finite() && sigma_m.is_finite()) {
         return bad;
     }
     let Some((h, a)) = solve_null_span(fore_m, aft_m) else { return bad };

@@ -164,12 +164,9 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
             sig[i] = libm::sqrtf(inv[i][i].max(0.0)) as f32;
         }
     }
-    let mut params = [0.0f32; P];
-    for i in 0..P {
-        params[i] = th[i] as f32;
-    }
+    let params = th;
     let ok = chi2.is_finite() && th[2] > 0.0;
-    Fix { params, sigma: sig, chi2: chi2 as f32, dof: N as i32 - nfree as i32, converged: ok }
+    Fix { params, sigma: sig, chi2, dof: N as i32 - nfree as i32, converged: ok }
 }
 
 fn residuals<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[F; P]) -> ([F; N], F) {
@@ -253,7 +250,8 @@ fn solve(m: &[[F; P]; P], b: &[F; P], n: usize) -> Option<[F; P]> {
     let mut a = *m;
     let mut x = *b;
     for col in 0..n {
-        let piv = (col..n).max_by(|&i, &j| libm::fabsf(a[i][col]).partial_cmp(&libm::fabsf(a[j][col])).unwrap_or(core::cmp::Ordering::Equal))?;
+        let piv =
+            (col..n).max_by(|&i, &j| libm::fabsf(a[i][col]).partial_cmp(&libm::fabsf(a[j][col])).unwrap_or(core::cmp::Ordering::Equal))?;
         if !(libm::fabsf(a[piv][col]) > 1e-30) {
             return None;
         }

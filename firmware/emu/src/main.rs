@@ -79,5 +79,8 @@ mod target {
 #[cfg(not(target_os = "none"))]
 fn main() {
     let rep = undertone_firmware::emulated::run(FRAMES, &mut || 0, &mut |l| println!("{l}"));
-    println!("E frames={} readouts={} receiver_ticks=0 driver_ticks=0 gain_steps={} rejected={}", rep.frames, rep.readouts, rep.gain_steps, rep.rejected);
+    println!(
+        "E frames={} readouts={} receiver_ticks=0 driver_ticks=0 gain_steps={} rejected={}",
+        rep.frames, rep.readouts, rep.gain_steps, rep.rejected
+    );
 }

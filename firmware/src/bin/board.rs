@@ -14,8 +14,8 @@
 #![no_main]
 
 use core::cell::RefCell;
-use critical_section::Mutex;
 use cortex_m_rt::entry;
+use critical_section::Mutex;
 use embedded_hal_bus::spi::{ExclusiveDevice, NoDelay};
 use heapless::String;
 use stm32f4xx_hal::{
@@ -136,6 +136,7 @@ fn main() -> ! {
     }
     critical_section::with(|cs| ADC.borrow_ref_mut(cs).replace(adc));
     // SAFETY: the handler only touches state behind critical sections.
+    #[allow(unsafe_code)] // unmasking an interrupt is `unsafe` in cortex-m; the one place this crate needs it
     unsafe { cortex_m::peripheral::NVIC::unmask(pac::Interrupt::EXTI0) };
 
     // Speaker on TIM3 channel 2 (PB5).
@@ -222,7 +223,10 @@ fn main() -> ! {
                 LineEvent::Line(l) => {
                     if app.command(&l, &mut reply) == Effect::Save {
                         let unlocked = stm32f4xx_hal::flash::FlashExt::unlocked(&mut flash);
-                        let saved = Store::new(unlocked, STORE_BASE, STORE_SIZE).ok().map(|mut st| st.save(app.settings()).is_ok()).unwrap_or(false);
+                        let saved = Store::new(unlocked, STORE_BASE, STORE_SIZE)
+                            .ok()
+                            .map(|mut st| st.save(app.settings()).is_ok())
+                            .unwrap_or(false);
                         if !saved {
                             reply.clear();
                             let _ = reply.push_str("err save failed: flash error");

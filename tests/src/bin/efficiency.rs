@@ -11,6 +11,7 @@
 
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::field::Source;
+use undertone_dsp::phasor::Phasor;
 use undertone_dsp::{Beacon, Detector, DetectorKind, DetectorSettings, Head, Receiver, ReceiverSettings, Window};
 use undertone_tests::{mean_var, Noise};
 
@@ -18,7 +19,12 @@ fn amplitude_row(kind: DetectorKind, name: &str, snr_db: f64) {
     let fs = 4_000.0f32;
     let bw = 20.0f32;
     let s = DetectorSettings { sample_rate_hz: fs, beacon: Beacon::Custom(500.0), bandwidth_hz: bw, kind, readout_rate_hz: 10.0 };
-    let mut det = Detector::<1>::new(&s, { let mut i = InputScale::unity(24); i.full_scale = 1e9; i }).unwrap();
+    let mut det = Detector::<1>::new(&s, {
+        let mut i = InputScale::unity(24);
+        i.full_scale = 1e9;
+        i
+    })
+    .unwrap();
     let n_eff = (fs / bw) as f64;
     // Output SNR A/σ_c with σ_c² = 2σw²B/fs.
     let a = 1.0f64;
@@ -32,7 +38,7 @@ fn amplitude_row(kind: DetectorKind, name: &str, snr_db: f64) {
         let x = (a * (w * n as f64 + 0.3).cos() + noise.sample()) as f32;
         if let Some(d) = det.push(&[x]) {
             if d.t_s > settle {
-                amps.push(d.phasors[0].abs() as f64);
+                amps.push(d.phasors[0].magnitude() as f64);
             }
         }
     }
@@ -47,7 +53,15 @@ fn depth_row(depth_m: f32, snr_db: f64) {
     let r = head.readings(&Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -depth_m] }, [0.0; 3], 0.0);
     let peak = r.iter().fold(0.0f32, |m, v| m.max(v.abs())) as f64;
     let amp: Vec<f64> = r.iter().map(|v| *v as f64 / peak).collect();
-    let mut s = ReceiverSettings::new(DetectorSettings::new(fs, Beacon::Hz512), { let mut i = InputScale::unity(24); i.full_scale = 1e9; i }, head);
+    let mut s = ReceiverSettings::new(
+        DetectorSettings::new(fs, Beacon::Hz512),
+        {
+            let mut i = InputScale::unity(24);
+            i.full_scale = 1e9;
+            i
+        },
+        head,
+    );
     s.detector.bandwidth_hz = 2.0;
     let mut rx = Receiver::<4>::new(s).unwrap();
     let bw = rx.detector_info().bandwidth_hz as f64;
@@ -79,7 +93,15 @@ fn depth_row(depth_m: f32, snr_db: f64) {
     let (a_lo, a_up) = (amp[0].abs(), amp[3].abs());
     let bound = h * (h + s_sep) / (3.0 * s_sep) * ((sigma_c / a_lo).powi(2) + (sigma_c / a_up).powi(2)).sqrt();
     let rep = reported.iter().sum::<f64>() / reported.len().max(1) as f64;
-    println!("| {h:.1} m | {snr_db:.0} dB | {} | {:+.2} % | {:.4} | {:.4} | {:.4} | {:.3} |", depths.len(), 100.0 * (m - h) / h, v.sqrt(), bound, rep, v.sqrt() / bound);
+    println!(
+        "| {h:.1} m | {snr_db:.0} dB | {} | {:+.2} % | {:.4} | {:.4} | {:.4} | {:.3} |",
+        depths.len(),
+        100.0 * (m - h) / h,
+        v.sqrt(),
+        bound,
+        rep,
+        v.sqrt() / bound
+    );
 }
 
 fn main() {

@@ -35,12 +35,19 @@ fn main() -> ExitCode {
     }
     if let Some(e) = out.lines().find(|l| l.starts_with("E ")) {
         if let (Some(f), Some(t)) = (field(e, "frames="), field(e, "receiver_ticks=")) {
-            println!("| application core in the emulated firmware (bursts of 16 frames) | {:.2} per channel-sample |", t * 40.0 / (f * 4.0));
+            println!(
+                "| application core in the emulated firmware (bursts of 16 frames) | {:.2} per channel-sample |",
+                t * 40.0 / (f * 4.0)
+            );
             rows += 1;
         }
     }
     println!();
-    println!("receiver state: Receiver<4> {} bytes, Receiver<6> {} bytes (size_of on this host; the same layout on the target)", std::mem::size_of::<undertone_dsp::Receiver<4>>(), std::mem::size_of::<undertone_dsp::Receiver<6>>());
+    println!(
+        "receiver state: Receiver<4> {} bytes, Receiver<6> {} bytes (size_of on this host; the same layout on the target)",
+        std::mem::size_of::<undertone_dsp::Receiver<4>>(),
+        std::mem::size_of::<undertone_dsp::Receiver<6>>()
+    );
     if rows < 5 {
         eprintln!("target-bench: the image printed too few measurements");
         return ExitCode::FAILURE;
