@@ -42,6 +42,18 @@ pub enum Param {
     Hysteresis,
     /// A sonde moment or line current.
     SourceStrength,
+    /// Relative gain uncertainty between coils.
+    GainTolerance,
+    /// Height of the lower coil above the ground, m.
+    CoilHeight,
+    /// A signal threshold (SNR, dB).
+    SignalThreshold,
+    /// The relative gain of coil `i`.
+    CoilGain(u8),
+    /// The position of coil `i`, m.
+    CoilPosition(u8),
+    /// The axis of coil `i` (a unit vector).
+    CoilAxis(u8),
 }
 
 impl Param {
@@ -64,6 +76,20 @@ impl Param {
             Param::Distance => "distance",
             Param::Hysteresis => "orientation hysteresis",
             Param::SourceStrength => "source strength",
+            Param::GainTolerance => "gain tolerance",
+            Param::CoilHeight => "coil height",
+            Param::SignalThreshold => "signal threshold",
+            Param::CoilGain(_) => "gain",
+            Param::CoilPosition(_) => "position",
+            Param::CoilAxis(_) => "axis length",
+        }
+    }
+
+    /// The coil a per-coil parameter refers to.
+    pub const fn coil(self) -> Option<u8> {
+        match self {
+            Param::CoilGain(i) | Param::CoilPosition(i) | Param::CoilAxis(i) => Some(i),
+            _ => None,
         }
     }
 
@@ -72,7 +98,8 @@ impl Param {
         match self {
             Param::SampleRate | Param::BeaconFrequency | Param::Bandwidth | Param::ReadoutRate | Param::ScanRange => "Hz",
             Param::BlockLength | Param::RecordLength => "samples",
-            Param::Distance | Param::HeadGeometry => "m",
+            Param::Distance | Param::HeadGeometry | Param::CoilHeight | Param::CoilPosition(_) => "m",
+            Param::SignalThreshold => "dB",
             _ => "",
         }
     }
@@ -108,6 +135,9 @@ impl fmt::Display for ConfigError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         let u = self.param.unit();
         let sp = if u.is_empty() { "" } else { " " };
+        if let Some(i) = self.param.coil() {
+            write!(f, "coil {i} ")?;
+        }
         write!(
             f,
             "{} {}{}{} is not allowed: allowed {}{}{} to {}{}{}",

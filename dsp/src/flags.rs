@@ -18,15 +18,16 @@ impl Flags {
     pub const MAINS: Flags = Flags(1 << 3);
     /// The tone is off the set frequency by more than a quarter of the bandwidth.
     pub const OFF_FREQUENCY: Flags = Flags(1 << 4);
-    /// Signal-to-noise ratio too low for locating.
-    pub const LOW_SNR: Flags = Flags(1 << 5);
+    /// No beacon tone: the field is below the detection threshold (noise only,
+    /// wrong frequency, or no input). Nothing is located.
+    pub const NO_SIGNAL: Flags = Flags(1 << 5);
     /// Large quadrature part: interference, eddy currents or nearby metal.
     pub const QUADRATURE: Flags = Flags(1 << 6);
     /// The one-station fit residual is large: the field is not a clean dipole.
     pub const DISTORTED: Flags = Flags(1 << 7);
     /// Samples were dropped before they reached the receiver (queue overrun).
     pub const OVERRUN: Flags = Flags(1 << 8);
-    /// A channel is so weak the gain should be raised.
+    /// A tone, but below the SNR needed for a depth (the locator's `locate_snr_db`, 20 dB by default).
     pub const WEAK: Flags = Flags(1 << 9);
 
     /// Names in bit order, for printing.
@@ -36,7 +37,7 @@ impl Flags {
         (Flags::SETTLING, "settling"),
         (Flags::MAINS, "mains"),
         (Flags::OFF_FREQUENCY, "off-frequency"),
-        (Flags::LOW_SNR, "low-snr"),
+        (Flags::NO_SIGNAL, "no-signal"),
         (Flags::QUADRATURE, "quadrature"),
         (Flags::DISTORTED, "distorted"),
         (Flags::OVERRUN, "overrun"),

@@ -46,5 +46,6 @@ pub use error::{ConfigError, Param};
 pub use field::head::Head;
 pub use field::FieldModel;
 pub use flags::Flags;
+pub use locate::locator::{Locator, LocatorSettings, Signal};
 pub use phasor::C32;
 pub use receiver::{Readout, Receiver, ReceiverSettings};

@@ -242,8 +242,8 @@ impl<const N: usize> App<N> {
 /// `R <sample> <t_s> <strength> <strength_db> <bearing_deg> <vertical_ratio> <depth_m|nan> <sigma_m|nan> <state> <flags>`.
 pub fn readout_line<const N: usize>(r: &Readout<N>, out: &mut String<REPLY>) {
     out.clear();
-    let (d, sd) = match r.depth() {
-        Some(e) => (e.depth_m, e.sigma_m),
+    let (d, sd) = match r.depth {
+        Some(e) => (e.depth.depth_m, e.depth.sigma_m),
         None => (f32::NAN, f32::NAN),
     };
     let _ = write!(

@@ -31,20 +31,63 @@ pub trait SampleSource<const N: usize> {
     fn next(&mut self) -> [i32; N];
 }
 
-/// A tone on every coil plus noise, deterministic.
+/// A tone on every coil plus noise, deterministic; optionally a receiver walking
+/// along the sonde axis into the point over it ([`Synthetic::walking`]).
 pub struct Synthetic<const N: usize> {
     amp: [f32; N],
     phase: u32,
     step: u32,
     lcg: u32,
     noise: i32,
+    walk: Option<Walk>,
+    n: u32,
+}
+
+/// A walk along a level sonde's axis (the 4-coil reference head, handle along the axis).
+#[derive(Clone, Copy, Debug)]
+struct Walk {
+    depth_m: f32,
+    start_m: f32,
+    speed_m_per_sample: f32,
+    peak_code: f32,
+    every: u32,
 }
 
 impl<const N: usize> Synthetic<N> {
     /// Tone `f_hz` at `fs`, amplitudes in codes, uniform noise of ±`noise` codes (sum of two).
     pub fn new(f_hz: f32, fs: f32, amp: [f32; N], noise: i32) -> Self {
         let step = ((f_hz as f64 / fs as f64) * 4_294_967_296.0) as u32;
-        Self { amp, phase: 0x1234_5678, step, lcg: 0x2545_F491, noise }
+        Self { amp, phase: 0x1234_5678, step, lcg: 0x2545_F491, noise, walk: None, n: 0 }
+    }
+
+    /// A receiver starting `start_m` (negative: before the point over the sonde) along a level
+    /// sonde's axis at `depth_m`, walking at `speed_m_s` to the point over it and standing
+    /// there; the strongest coil over the sonde at `peak_code`. The geometry is updated every
+    /// millisecond (Griffiths eq. 5.89 through `undertone-dsp`'s field model, f32 throughout).
+    pub fn walking(f_hz: f32, fs: f32, depth_m: f32, start_m: f32, speed_m_s: f32, peak_code: f32, noise: i32) -> Self {
+        let mut s = Self::new(f_hz, fs, [0.0; N], noise);
+        s.walk = Some(Walk {
+            depth_m,
+            start_m,
+            speed_m_per_sample: speed_m_s / fs,
+            peak_code,
+            every: libm::roundf(fs / 1000.0).max(1.0) as u32,
+        });
+        s.amp = s.walk_amplitudes(0);
+        s
+    }
+
+    fn walk_amplitudes(&self, n: u32) -> [f32; N] {
+        let Some(w) = self.walk else { return self.amp };
+        let x = (w.start_m + w.speed_m_per_sample * n as f32).min(0.0);
+        let r = reference_readings(w.depth_m, x);
+        let over = reference_readings(w.depth_m, 0.0);
+        let peak = over.iter().fold(0.0f32, |m, v| m.max(libm::fabsf(*v)));
+        let mut a = [0.0; N];
+        for c in 0..N.min(4) {
+            a[c] = r[c] / peak * w.peak_code;
+        }
+        a
     }
 
     fn rand(&mut self) -> i32 {
@@ -55,8 +98,20 @@ impl<const N: usize> Synthetic<N> {
     }
 }
 
+/// Readings of the reference head `x` m past a level unit sonde `depth_m` below (axis along the handle).
+fn reference_readings(depth_m: f32, x: f32) -> [f32; 4] {
+    let src = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [-x, 0.0, -depth_m] };
+    Head::reference4().readings(&src, [0.0; 3], 0.0)
+}
+
 impl<const N: usize> SampleSource<N> for Synthetic<N> {
     fn next(&mut self) -> [i32; N] {
+        if let Some(w) = self.walk {
+            if self.n.is_multiple_of(w.every) {
+                self.amp = self.walk_amplitudes(self.n);
+            }
+        }
+        self.n = self.n.wrapping_add(1);
         let s = libm::sinf(self.phase as f32 * (core::f32::consts::TAU / 4_294_967_296.0));
         self.phase = self.phase.wrapping_add(self.step);
         let mut out = [0i32; N];
@@ -192,8 +247,13 @@ pub struct EmuReport {
     pub rejected: u32,
 }
 
-/// Conversions the emulator image runs: 4 s at 16 kSPS.
-pub const EMU_FRAMES: u32 = 64_000;
+/// Conversions the emulator image runs: 6 s at 16 kSPS (a 3 s walk into the point over
+/// the sonde, then standing there).
+pub const EMU_FRAMES: u32 = 96_000;
+/// Where the emulated walk starts, m along the axis before the point over the sonde.
+pub const EMU_START_M: f32 = -1.5;
+/// Walking speed of the emulated receiver, m/s.
+pub const EMU_SPEED_M_S: f32 = 0.5;
 
 /// Sample rate of the emulation, Hz.
 pub const EMU_OSR: Osr = Osr::R256;
@@ -253,7 +313,7 @@ pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str
         }
     }
     let ready = Cell::new(false);
-    let mut fake = FakeAdc::new(Synthetic::new(512.0, fs, emu_amplitudes(), 3000), &ready);
+    let mut fake = FakeAdc::new(Synthetic::<4>::walking(512.0, fs, EMU_DEPTH_M, EMU_START_M, EMU_SPEED_M_S, 2_097_152.0, 3000), &ready);
     fake.corrupt_every = 997;
     let mut adc: Ads131<_, _, _, 4> = Ads131::new(&mut fake, FakeDrdy(&ready), NoWait);
     if adc.init(EMU_OSR, [0; 4]).is_err() {

@@ -59,7 +59,7 @@ impl<const N: usize> Settings<N> {
         det.readout_rate_hz = self.readout_hz;
         let input = InputScale { scale, full_scale_code, full_scale: 1.0 };
         let mut s = ReceiverSettings::new(det, input, self.head);
-        s.calibration = self.calibration;
+        s.locator.calibration = self.calibration;
         s
     }
 

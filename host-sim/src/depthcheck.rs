@@ -17,10 +17,9 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use rayon::prelude::*;
 use serde::Serialize;
-use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::locate::calibration::Calibration;
 use undertone_dsp::locate::depth::null_span_depth;
-use undertone_dsp::{Beacon, DetectorSettings, Head, Receiver, ReceiverSettings, C32};
+use undertone_dsp::Head;
 
 /// True depths of the grid, m.
 pub const DEPTHS_M: [f64; 10] = [0.3, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0, 4.0, 5.0, 6.0];
@@ -72,6 +71,11 @@ fn readings(geom: &HeadGeom, h: f64, ahead: f64, left: f64, pitch: f64, mismatch
         .collect()
 }
 
+/// The depth each method gives from readings `r` when the receiver judges itself
+/// over the sonde: the offsets it then assumes are zero with the over tolerance's
+/// share of uncertainty (0.05 of the depth, one sigma), the coils' gain tolerance
+/// is the locator's default. Noisy case: complex Gaussian noise of σ per component
+/// on every coil, averaged over the readouts a person standing still collects (24).
 fn locate<const N: usize>(
     head: Head<N>,
     r: &[f64],
@@ -79,34 +83,43 @@ fn locate<const N: usize>(
     cal: Calibration,
     rng: &mut ChaCha8Rng,
 ) -> (Option<f64>, Option<f64>, Option<f64>) {
-    let det = DetectorSettings::new(48_000.0, Beacon::Hz512);
-    let mut s = ReceiverSettings::new(det, InputScale::unity(24), head);
-    s.calibration = cal;
-    let Ok(mut rx) = Receiver::new(s) else { return (None, None, None) };
+    use undertone_dsp::locate::depth::{gradient_depth, known_moment_depth, CoilPair, Offsets, RatioOf};
+    use undertone_dsp::locate::fit::{fit_from, LateralPrior};
+    let settings = undertone_dsp::LocatorSettings::default();
     let peak = r.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     let sigma = snr_db.map(|s| peak / 10f64.powf(s / 20.0)).unwrap_or(peak * 1e-6);
-    let mut last = None;
-    for _ in 0..24 {
-        let mut p = [C32::ZERO; N];
-        for c in 0..N {
-            let (nr, ni): (f64, f64) = if snr_db.is_some() { (StandardNormal.sample(rng), StandardNormal.sample(rng)) } else { (0.0, 0.0) };
-            let v = r[c];
-            p[c] = C32::new((v * 0.3f64.cos() + sigma * nr) as f32, (v * 0.3f64.sin() + sigma * ni) as f32);
-        }
-        let d = undertone_dsp::Detection::<N> {
-            sample_index: 0,
-            t_s: 0.0,
-            phasors: p,
-            noise_sigma: [sigma as f32; N],
-            stats: Default::default(),
-            freq_offset_hz: 0.0,
-            flags: Default::default(),
-        };
-        last = Some(rx.locate(&d));
+    // Standing still, 24 readouts averaged: the noise on the mean falls by √24.
+    let mut a = [0f32; N];
+    for c in 0..N {
+        let n: f64 = if snr_db.is_some() { StandardNormal.sample(rng) } else { 0.0 };
+        a[c] = (r[c] + sigma * n / 24f64.sqrt()) as f32;
     }
-    let r = last.expect("at least one readout");
-    let v = |e: undertone_dsp::locate::depth::DepthEstimate| e.is_valid().then_some(e.depth_m as f64);
-    (v(r.gradient), v(r.known_moment), v(r.fit_depth))
+    let sig = (sigma / 24f64.sqrt()) as f32;
+    let at = Offsets { u: 0.0, sigma_u: 0.05, eta: 0.0, sigma_eta: 0.05 };
+    let roles = head.roles;
+    let get = |i: Option<u8>| i.map(|k| a[k as usize]).unwrap_or(0.0);
+    let lo = [get(roles.lower[0]), get(roles.lower[1]), get(roles.lower[2])];
+    let up = [get(roles.upper[0]), get(roles.upper[1]), get(roles.upper[2])];
+    let norm = |v: [f32; 3]| (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+    let triads = roles.upper.iter().all(|x| x.is_some());
+    let (of, a_lo, a_up) = if triads { (RatioOf::Total, norm(lo), norm(up)) } else { (RatioOf::Along, lo[0].abs(), up[0].abs()) };
+    let sp = head.spacing_m().unwrap_or(0.4);
+    let v = |e: undertone_dsp::locate::depth::DepthEstimate| e.ok().map(|d| d.depth_m as f64);
+    let grad = gradient_depth(
+        settings.model,
+        of,
+        CoilPair { low: a_lo, up: a_up, sigma_low: sig, sigma_up: sig, spacing_m: sp },
+        settings.gain_tolerance,
+        at,
+    );
+    let known = known_moment_depth(settings.model, norm(lo), sig, cal.strength, cal.strength_sigma, at);
+    let fit = if N >= 6 {
+        let f = fit_from(&head, &a, &[sig.max(1e-30); N], None, None, Some(LateralPrior { left_over_depth: 0.0, sigma: 0.05 }));
+        f.converged.then_some(f.depth_m.value as f64)
+    } else {
+        None
+    };
+    (v(grad), v(known), fit)
 }
 
 /// Null positions along x of a pitched dipole at depth h (receiver at height 0): bisection on Bx.
@@ -200,7 +213,7 @@ pub fn run(head: HeadChoice, snr_db: f64) -> Result<Vec<Case>> {
                     (0.0, 0.0)
                 };
                 let fix = null_span_depth((f + ef).max(1e-3) as f32, (b + eb).max(1e-3) as f32, 0.02);
-                fix.depth.is_valid().then_some(fix.depth.depth_m as f64)
+                fix.depth.ok().map(|d| d.depth_m as f64)
             });
             let mk = |method, est: Option<f64>| Case {
                 method,

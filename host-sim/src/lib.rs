@@ -22,6 +22,7 @@ pub mod replay;
 pub mod report;
 pub mod run;
 pub mod scenario;
+pub mod score;
 pub mod sweep;
 pub mod synth;
 pub mod walk;

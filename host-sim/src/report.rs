@@ -168,10 +168,10 @@ fn null_span(seg: &[&Row], s_peak: f64, from: &[f64; 2], ux: f64, uy: f64) -> Op
     Some(MethodSummary {
         method: format!("null span ({fore:.2} m fore, {aft:.2} m aft)"),
         count: 1,
-        estimate_m: d.is_valid().then_some(d.depth_m as f64),
-        sigma_m: d.is_valid().then_some(d.sigma_m as f64),
+        estimate_m: d.ok().map(|d| d.depth_m as f64),
+        sigma_m: d.ok().map(|d| d.sigma_m as f64),
         truth_m: Some(truth),
-        error_pct: d.is_valid().then(|| 100.0 * (d.depth_m as f64 - truth) / truth),
+        error_pct: d.ok().map(|d| 100.0 * (d.depth_m as f64 - truth) / truth),
     })
 }
 
@@ -188,7 +188,7 @@ pub fn json_lines(out: &mut dyn Write, rows: &[Row]) -> crate::error::Result<()>
 pub fn timeline(out: &mut dyn Write, rows: &[Row], every_s: f64) -> std::io::Result<()> {
     writeln!(
         out,
-        "{:>6} {:>6} {:>6} {:>8} {:>6} {:>7} {:>8} {:>5} {:>14} {:>7}  flags",
+        "{:>6} {:>6} {:>6} {:>8} {:>6} {:>7} {:>8} {:>15} {:>14} {:>7}  flags",
         "t s", "x m", "y m", "str dB", "SNR", "bear°", "state", "walk", "depth m ±σ", "true m"
     )?;
     let mut next = f64::NEG_INFINITY;
@@ -198,10 +198,10 @@ pub fn timeline(out: &mut dyn Write, rows: &[Row], every_s: f64) -> std::io::Res
         }
         next = r.t_s + every_s;
         let (x, y, td) = r.truth.map(|t| (t.x_m, t.y_m, t.depth_m)).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
-        let walk = match r.direction {
-            1 => "ahead",
-            -1 => "back",
-            _ => "over",
+        let walk = match (r.along, r.across) {
+            ("over", "centred") => "OVER".to_string(),
+            (a, "unsure") => a.to_string(),
+            (a, c) => format!("{a}/{c}"),
         };
         let depth = match (r.depth_m, r.depth_sigma_m) {
             (Some(d), Some(s)) => format!("{d:.2}±{s:.2}"),
@@ -209,7 +209,7 @@ pub fn timeline(out: &mut dyn Write, rows: &[Row], every_s: f64) -> std::io::Res
         };
         writeln!(
             out,
-            "{:>6.2} {:>6.2} {:>6.2} {:>8.1} {:>6.1} {:>7.1} {:>8} {:>5} {:>14} {:>7.2}  {}",
+            "{:>6.2} {:>6.2} {:>6.2} {:>8.1} {:>6.1} {:>7.1} {:>8} {:>15} {:>14} {:>7.2}  {}",
             r.t_s,
             x,
             y,
@@ -251,4 +251,36 @@ pub fn print_summary(out: &mut dyn Write, s: &Summary) -> std::io::Result<()> {
         None => writeln!(out, "detection range: not detected")?,
     }
     Ok(())
+}
+
+/// Print what the receiver showed against the truth.
+pub fn print_score(out: &mut dyn Write, s: &crate::score::Score) -> std::io::Result<()> {
+    let pct = |a: usize, b: usize| if b == 0 { "--".to_string() } else { format!("{:.1} %", 100.0 * a as f64 / b as f64) };
+    writeln!(out, "\nAgainst the truth (handle within {:.0} deg of the sonde axis):", crate::score::SCORED_AXIS_ANGLE_DEG)?;
+    writeln!(
+        out,
+        "  beyond the nulls: {} readouts, direction right {} / wrong {} / withheld {} ({} of those shown right, {} withheld)",
+        s.beyond,
+        s.beyond_right,
+        s.beyond_wrong,
+        s.beyond_withheld,
+        pct(s.beyond_right, s.beyond_right + s.beyond_wrong),
+        pct(s.beyond_withheld, s.beyond)
+    )?;
+    writeln!(out, "  inside the nulls (off the over point): right {} / wrong {}", s.inside_right, s.inside_wrong)?;
+    writeln!(
+        out,
+        "  'over' shown {} times, {} farther than the over tolerance, worst {:.3} m",
+        s.over_shown, s.over_too_far, s.over_worst_m
+    )?;
+    writeln!(out, "  lateral side shown {} times, {} wrong", s.side_shown, s.side_wrong)?;
+    writeln!(
+        out,
+        "  depths shown {}: within 2 sigma {}, beyond 15 % {}, worst {:.1} %, zero sigma {}",
+        s.depth_shown,
+        pct(s.depth_within_2sigma, s.depth_shown),
+        s.depth_beyond_15pct,
+        s.depth_worst_pct,
+        s.depth_zero_sigma
+    )
 }

@@ -22,9 +22,9 @@ pub struct Est {
 
 impl From<DepthEstimate> for Est {
     fn from(d: DepthEstimate) -> Self {
-        match d.invalid {
-            None => Est { depth_m: Some(d.depth_m as f64), sigma_m: Some(d.sigma_m as f64), reason: None },
-            Some(r) => Est { depth_m: None, sigma_m: None, reason: Some(r.name()) },
+        match d {
+            Ok(d) => Est { depth_m: Some(d.depth_m as f64), sigma_m: Some(d.sigma_m as f64), reason: None },
+            Err(r) => Est { depth_m: None, sigma_m: None, reason: Some(r.name()) },
         }
     }
 }
@@ -40,18 +40,38 @@ pub struct Row {
     pub strength: f64,
     /// 20·log10(strength).
     pub strength_db: f64,
-    /// SNR of the lower along reading, dB.
+    /// SNR of the lower coils' field magnitude over its noise, dB.
     pub snr_db: f64,
+    /// Tone present: "good", "weak" or "no-signal".
+    pub signal: &'static str,
     /// Bearing of the field from the handle, degrees.
     pub bearing_deg: f64,
     /// Orientation state.
     pub state: &'static str,
     /// Bz/Bh.
     pub vertical_ratio: f64,
-    /// +1 ahead, −1 behind, 0 over/unknown.
+    /// +1 sonde ahead along the handle, −1 behind, 0 over or unsure (see `along`).
     pub direction: i8,
+    /// Along the handle: "ahead", "behind", "over" or "unsure".
+    pub along: &'static str,
+    /// Across the handle: "left", "right", "centred" or "unsure".
+    pub across: &'static str,
+    /// +1 sonde to the left, −1 to the right, 0 centred or unsure.
+    pub side: i8,
+    /// Over the sonde in both directions.
+    pub over: bool,
+    /// Why a direction is unsure.
+    pub unsure_reason: Option<&'static str>,
+    /// What to do next.
+    pub hint: &'static str,
     /// Distance ahead to the point over the sonde, m.
     pub ahead_m: Option<f64>,
+    /// Its σ, m.
+    pub ahead_sigma_m: Option<f64>,
+    /// Distance to the left of the point over the sonde, m.
+    pub left_m: Option<f64>,
+    /// Its σ, m.
+    pub left_sigma_m: Option<f64>,
     /// Gradient depth.
     pub gradient: Est,
     /// Known-moment depth.
@@ -60,12 +80,20 @@ pub struct Row {
     pub fit: Est,
     /// Fit offsets ahead and left, m.
     pub fit_offset_m: Option<[f64; 2]>,
-    /// Best depth (first valid of gradient, fit, known moment).
+    /// Depth shown, below the lower coil centre, m.
     pub depth_m: Option<f64>,
-    /// Its σ.
+    /// Its σ, m.
     pub depth_sigma_m: Option<f64>,
+    /// Depth shown, below the ground, m.
+    pub depth_below_ground_m: Option<f64>,
+    /// The method of the depth shown.
+    pub depth_method: Option<&'static str>,
+    /// Why no depth is shown.
+    pub depth_withheld: Option<&'static str>,
     /// Tone offset, Hz.
     pub freq_offset_hz: f64,
+    /// Its σ, Hz.
+    pub freq_offset_sigma_hz: f64,
     /// Flags.
     pub flags: Vec<&'static str>,
     /// Truth (simulation only).
@@ -92,6 +120,12 @@ pub struct TruthRow {
     pub range_m: f64,
     /// Sonde axis bearing from the handle, degrees.
     pub axis_bearing_deg: f64,
+    /// Sonde position (east, north, up), m.
+    pub sonde_m: [f64; 3],
+    /// Sonde ahead of the handle when the readout is shown (latest sample), m.
+    pub ahead_shown_m: f64,
+    /// Sonde left of the handle when the readout is shown, m.
+    pub left_shown_m: f64,
 }
 
 impl From<Truth> for TruthRow {
@@ -105,33 +139,63 @@ impl From<Truth> for TruthRow {
             left_m: t.left_m,
             range_m: t.range_m,
             axis_bearing_deg: t.axis_bearing_rad.to_degrees(),
+            sonde_m: t.sonde_m,
+            ahead_shown_m: t.ahead_m,
+            left_shown_m: t.left_m,
         }
     }
 }
 
+/// The truth at a readout's data centre and at the moment it is shown.
+pub fn truth_row(at_data: Truth, at_shown: Truth) -> TruthRow {
+    let mut t: TruthRow = at_data.into();
+    t.ahead_shown_m = at_shown.ahead_m;
+    t.left_shown_m = at_shown.left_m;
+    t
+}
+
 /// Convert a readout of any head size.
-pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<Truth>) -> Row {
-    let best = r.depth();
+pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>) -> Row {
+    let g = &r.guidance;
+    let f64o = |v: Option<f32>| v.map(|v| v as f64);
+    let shown = r.depth;
+    // Why no depth: the reason of the first method the head has.
+    let withheld =
+        shown.is_none().then(|| [r.gradient, r.fit_depth, r.known_moment].iter().find_map(|e| e.err()).map(|w| w.name())).flatten();
     Row {
         t_s: r.t_s,
         t_latest_s: r.sample_index as f64 / fs,
         strength: r.strength as f64,
         strength_db: r.strength_db as f64,
         snr_db: r.snr_db as f64,
+        signal: r.signal.name(),
         bearing_deg: r.bearing_deg as f64,
         state: r.state.name(),
-        vertical_ratio: r.guidance.vertical_ratio as f64,
-        direction: r.guidance.direction,
-        ahead_m: r.guidance.ahead_m.map(|v| v as f64),
+        vertical_ratio: g.vertical_ratio as f64,
+        direction: g.direction(),
+        along: g.along.name(),
+        across: g.across.name(),
+        side: g.side(),
+        over: g.over(),
+        unsure_reason: g.why.map(|w| w.name()),
+        hint: g.hint.name(),
+        ahead_m: f64o(g.ahead.map(|d| d.value_m)),
+        ahead_sigma_m: f64o(g.ahead.map(|d| d.sigma_m)),
+        left_m: f64o(g.left.map(|d| d.value_m)),
+        left_sigma_m: f64o(g.left.map(|d| d.sigma_m)),
         gradient: r.gradient.into(),
         known_moment: r.known_moment.into(),
         fit: r.fit_depth.into(),
-        fit_offset_m: r.fix.filter(|f| f.converged && r.fit_depth.is_valid()).map(|f| [f.params[0] as f64, f.params[1] as f64]),
-        depth_m: best.map(|d| d.depth_m as f64),
-        depth_sigma_m: best.map(|d| d.sigma_m as f64),
+        fit_offset_m: r.fix.filter(|f| f.converged && r.fit_depth.is_ok()).map(|f| [f.ahead_m.value as f64, f.left_m.value as f64]),
+        depth_m: shown.map(|d| d.depth.depth_m as f64),
+        depth_sigma_m: shown.map(|d| d.depth.sigma_m as f64),
+        depth_below_ground_m: shown.map(|d| d.below_ground_m as f64),
+        depth_method: shown.map(|d| d.method.name()),
+        depth_withheld: withheld,
         freq_offset_hz: r.freq_offset_hz as f64,
+        freq_offset_sigma_hz: r.freq_offset_sigma_hz as f64,
         flags: r.flags.names().collect(),
-        truth: truth.map(Into::into),
+        truth,
     }
 }
 
@@ -187,7 +251,8 @@ pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth
     let fsc = input.full_scale_code as f64;
     input.scale = [(sc.receiver.full_scale_t / fsc) as f32; N];
     let mut s = ReceiverSettings::new(det, input, head);
-    s.skin_depth_m = crate::physics::skin_depth_m(det.beacon.freq_hz() as f64, sc.receiver.assume_conductivity_s_per_m) as f32;
+    s.locator.skin_depth_m = crate::physics::skin_depth_m(det.beacon.freq_hz() as f64, sc.receiver.assume_conductivity_s_per_m) as f32;
+    s.locator.coil_height_m = sc.receiver.height_m as f32;
     s
 }
 
@@ -199,7 +264,8 @@ fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, b
     let mut frame = [0i32; N];
     while synth.next_codes(&mut frame) {
         if let Some(r) = rx.push_codes(&frame) {
-            rows.push(row(&r, synth.fs, Some(synth.truth(r.t_s.max(0.0)))));
+            let shown = r.sample_index as f64 / synth.fs;
+            rows.push(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown)))));
         }
     }
     Ok(SimRun { rows, info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position() })

@@ -45,6 +45,8 @@ pub fn walk(sc: &Scenario, out_dir: &Path, json: bool, seed: Option<u64>, out: &
     timeline(out, &run.rows, 0.5).map_err(io)?;
     let summary = summarise(sc, &run);
     print_summary(out, &summary).map_err(io)?;
+    let axis = crate::physics::axis(sc.sonde.yaw_deg.to_radians(), sc.sonde.pitch_deg.to_radians());
+    crate::report::print_score(out, &crate::score::score(&run.rows, axis)).map_err(io)?;
     crate::output::folder(out_dir)?;
     let t: Vec<f64> = run.rows.iter().map(|r| r.t_s).collect();
     let strength = Chart {

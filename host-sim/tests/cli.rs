@@ -23,7 +23,8 @@ fn examples() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("examples")
 }
 
-/// A short scenario of our own for quick end-to-end runs (8 s, still then a short walk).
+/// A short scenario of our own for quick end-to-end runs (8 s: a short walk along the
+/// sonde axis into the point over it, then standing there).
 const SHORT: &str = r#"
 name = "short test run"
 seed = 3
@@ -42,14 +43,14 @@ field_t = 2e-8
 [noise]
 density_t_per_rthz = 2e-12
 [[motion]]
+kind = "walk"
+from = [-1.6, 0.0]
+to = [0.0, 0.0]
+speed_m_s = 0.4
+[[motion]]
 kind = "still"
 at = [0.0, 0.0]
 duration_s = 4
-[[motion]]
-kind = "walk"
-from = [0.0, 0.0]
-to = [1.6, 0.0]
-speed_m_s = 0.4
 "#;
 
 fn write(dir: &Path, name: &str, text: &str) -> PathBuf {

@@ -7,7 +7,7 @@ use undertone_dsp::field::vec3::from_yaw_pitch;
 use undertone_dsp::field::Source;
 use undertone_dsp::format::{length, LengthUnit};
 use undertone_dsp::locate::calibration::{calibrate, pre_job_check, CalInput, Calibration};
-use undertone_dsp::locate::depth::gradient_depth;
+use undertone_dsp::locate::depth::{gradient_depth, CoilPair, Offsets, RatioOf};
 use undertone_dsp::{Beacon, DetectorSettings, FieldModel, Flags, Head, Param, Receiver, ReceiverSettings};
 
 fn detection<const N: usize>(r: &[f32; N], sigma: f32) -> undertone_dsp::Detection<N> {
@@ -18,6 +18,7 @@ fn detection<const N: usize>(r: &[f32; N], sigma: f32) -> undertone_dsp::Detecti
         noise_sigma: [sigma; N],
         stats: Default::default(),
         freq_offset_hz: 0.0,
+        freq_offset_sigma_hz: 0.0,
         flags: Default::default(),
     }
 }
@@ -36,9 +37,13 @@ fn six_coil_fix_off_the_peak() {
     let out = rx.locate(&detection(&r, 1e-3));
     let fix = out.fix.expect("fit ran");
     assert!(fix.converged);
-    assert!((fix.params[0] - 0.5).abs() < 0.01 && (fix.params[1] + 0.3).abs() < 0.01, "{fix:?}");
-    assert!(out.fit_depth.is_valid() && (out.fit_depth.depth_m - 1.6).abs() < 0.01, "{:?}", out.fit_depth);
-    assert!(!out.gradient.is_valid(), "off the peak: gradient withheld");
+    assert!((fix.ahead_m.value - 0.5).abs() < 0.01 && (fix.left_m.value + 0.3).abs() < 0.01, "{fix:?}");
+    let d = out.fit_depth.expect("fit depth");
+    assert!((d.depth_m - 1.6).abs() < 0.01 && d.sigma_m > 0.0, "{d:?}");
+    assert!(out.gradient.is_err(), "off the peak: gradient withheld");
+    // The guidance comes from the fix: the sonde is ahead and to the right.
+    assert_eq!(out.guidance.direction(), 1, "{:?}", out.guidance);
+    assert_eq!(out.guidance.side(), -1, "{:?}", out.guidance);
 }
 
 #[test]
@@ -50,8 +55,8 @@ fn distorted_field_is_flagged_when_calibrated() {
     let src = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.2, 0.1, -1.2] };
     let clean = head.readings(&src, [0.0; 3], 0.0).map(|v| v * 1e9);
     let mut s = six();
-    s.calibration = Calibration { upper_gain: 1.0, strength: k, strength_sigma: 0.0 };
-    s.fit_every = 1; // fit on every readout: the field changes between the two readouts below
+    s.locator.calibration = Calibration { upper_gain: 1.0, strength: k, strength_sigma: 0.0 };
+    s.locator.fit_every = 1; // fit on every readout: the field changes between the two readouts below
     let mut rx = Receiver::new(s).unwrap();
     let out = rx.locate(&detection(&clean, 1e-3));
     assert!(!out.flags.contains(Flags::DISTORTED), "{:?}", out.fix);
@@ -79,8 +84,18 @@ fn gain_calibration_corrects_upper_coil_mismatch() {
     .unwrap();
     assert!((cal.upper_gain - 1.0 / 1.03).abs() < 1e-4, "{cal:?}");
     let r2 = read(2.0);
-    let raw = gradient_depth(FieldModel::Dipole, r2[0], r2[3] * 1.03, 0.0, 0.0, 0.4);
-    let fixed = gradient_depth(FieldModel::Dipole, r2[0], r2[3] * 1.03 * cal.upper_gain, 0.0, 0.0, 0.4);
+    let est = |up: f32| {
+        gradient_depth(
+            FieldModel::Dipole,
+            RatioOf::Along,
+            CoilPair { low: r2[0], up, sigma_low: 0.0, sigma_up: 0.0, spacing_m: 0.4 },
+            0.0,
+            Offsets::OVER,
+        )
+        .unwrap()
+    };
+    let raw = est(r2[3] * 1.03);
+    let fixed = est(r2[3] * 1.03 * cal.upper_gain);
     assert!((raw.depth_m - 2.0).abs() > 0.1, "{raw:?}");
     assert!((fixed.depth_m - 2.0).abs() < 1e-3, "{fixed:?}");
     // Strength K = A·d³ at the known distance.
@@ -134,12 +149,27 @@ fn interleaved_buffers_give_the_same_readouts_as_frames() {
     assert_eq!(ra.last().unwrap().phasors, rb.last().unwrap().phasors);
 }
 
+#[test]
+fn coil_gains_outside_the_sane_range_are_refused_naming_the_coil() {
+    for (coil, g) in [(3usize, 1e-20f32), (1, 1e-45), (5, 1e9), (0, -1.0), (2, f32::NAN)] {
+        let mut s = six();
+        s.head.coils[coil].gain = g;
+        let e = Receiver::new(s).unwrap_err();
+        assert_eq!(e.param, Param::CoilGain(coil as u8), "{e}");
+        assert!(e.to_string().starts_with(&format!("coil {coil} gain")), "{e}");
+    }
+    // The upper coil below the lower one is refused too.
+    let mut s = six();
+    s.head.coils[3].pos_m = [0.0, 0.0, -0.4];
+    assert_eq!(Receiver::new(s).unwrap_err().param, Param::CoilPosition(3));
+}
+
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 24, .. ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig::with_cases(cases(24)))]
 
     #[test]
     fn receiver_survives_any_frames_and_gains(
-        gains in prop::array::uniform6(prop_oneof![Just(1e-9f32), Just(1e9f32), Just(-1.0f32), 0.01f32..100.0]),
+        gains in prop::array::uniform6(0.1f32..10.0),
         frames in prop::collection::vec(prop::array::uniform6(prop_oneof![Just(f32::NAN), Just(f32::INFINITY), Just(0.0f32), Just(1e38f32), -1.0f32..1.0]), 1..40),
     ) {
         let mut s = six();
@@ -153,13 +183,20 @@ proptest! {
                 if let Some(r) = rx.push(f) {
                     prop_assert!(r.strength.is_finite() && r.strength_db.is_finite() && r.snr_db.is_finite());
                     prop_assert!(r.bearing_deg.is_finite() && r.guidance.vertical_ratio.is_finite());
-                    for e in [r.gradient, r.fit_depth, r.known_moment] {
-                        prop_assert!(e.depth_m.is_finite() && e.sigma_m.is_finite());
+                    for d in [r.gradient, r.fit_depth, r.known_moment].into_iter().flatten() {
+                        prop_assert!(d.depth_m.is_finite() && d.sigma_m.is_finite() && d.sigma_m > 0.0);
                     }
-                    if let Some(g) = r.guidance.ahead_m { prop_assert!(g.is_finite()); }
+                    for d in [r.guidance.ahead, r.guidance.left].into_iter().flatten() {
+                        prop_assert!(d.value_m.is_finite() && d.sigma_m.is_finite());
+                    }
                     prop_assert!(r.field.signed.iter().chain(r.field.sigma.iter()).all(|v| v.is_finite()));
                 }
             }
         }
     }
+}
+
+/// Property-test cases: `PROPTEST_CASES` when set (CI raises it), else `default`.
+fn cases(default: u32) -> u32 {
+    std::env::var("PROPTEST_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(default)
 }

@@ -85,6 +85,8 @@ pub struct Detection<const N: usize> {
     pub stats: ChannelStats<N>,
     /// Estimated offset of the tone from the set frequency, Hz.
     pub freq_offset_hz: f32,
+    /// One-sigma of that estimate, Hz.
+    pub freq_offset_sigma_hz: f32,
     /// Conditions: CLIPPED, NON_FINITE, SETTLING, MAINS, OFF_FREQUENCY.
     pub flags: Flags,
 }
@@ -363,7 +365,21 @@ impl<const N: usize> Detector<N> {
         let elapsed = ((n + 1) as f64 / self.info.sample_rate_hz as f64) as f32;
         flags.set(Flags::SETTLING, elapsed < self.info.settle_99_s);
         flags.set(Flags::MAINS, self.mains_flag);
-        flags.set(Flags::OFF_FREQUENCY, libm::fabsf(off) > OFFSET_FLAG_FRACTION * self.info.bandwidth_hz);
-        Detection { sample_index: n, t_s, phasors: p, noise_sigma: sigma, stats, freq_offset_hz: off, flags }
+        // Off frequency: the offset is both large against the bandwidth and significant against its own σ.
+        let off_sigma = self.offset.offset_sigma_hz();
+        flags.set(
+            Flags::OFF_FREQUENCY,
+            libm::fabsf(off) > OFFSET_FLAG_FRACTION * self.info.bandwidth_hz && libm::fabsf(off) > 3.0 * off_sigma,
+        );
+        Detection {
+            sample_index: n,
+            t_s,
+            phasors: p,
+            noise_sigma: sigma,
+            stats,
+            freq_offset_hz: off,
+            freq_offset_sigma_hz: off_sigma,
+            flags,
+        }
     }
 }

@@ -4,7 +4,14 @@
 //! `2π·Δf·T` between readouts `T` seconds apart. With `P_c[k]` the phasor of
 //! coil `c` at readout `k`, `z[k] = Σ_c P_c[k]·conj(P_c[k−1])` has that angle on
 //! every coil whatever its sign, weighted by power. `z` is smoothed
-//! (`z̄ ← z̄ + β(z − z̄)`) and `Δf = arg(z̄)/(2πT)`, unambiguous within ±1/(2T).
+//! (`z̄ ← z̄ + β(z − z̄)`, on unit phasors) and `Δf = arg(z̄)/(2πT)`, unambiguous
+//! within ±1/(2T).
+//!
+//! Its uncertainty: the mean resultant length `R = |z̄|` of the smoothed unit
+//! phasors gives the spread of the per-readout angle, `σ_θ = √(−2 ln R)` (the
+//! wrapped normal distribution; Mardia & Jupp, *Directional Statistics*, 2000,
+//! §3.5.7, from memory), and the average of about `(2 − β)/β` of them has
+//! `σ_θ·√(β/(2 − β))`, so `σ_Δf = σ_θ·√(β/(2 − β))/(2πT)`.
 
 use crate::phasor::{Phasor, C32};
 
@@ -46,6 +53,16 @@ impl<const N: usize> OffsetEstimator<N> {
             self.have_prev = true;
         }
         self.offset_hz()
+    }
+
+    /// One-sigma of the current estimate, Hz (infinite before two readouts).
+    pub fn offset_sigma_hz(&self) -> f32 {
+        let r = self.z.magnitude();
+        if !(r > 0.0) {
+            return f32::INFINITY;
+        }
+        let spread = libm::sqrtf((-2.0 * libm::logf(r.min(1.0))).max(0.0));
+        spread * libm::sqrtf(self.beta / (2.0 - self.beta)) / (2.0 * core::f32::consts::PI * self.interval_s)
     }
 
     /// Current estimate, Hz (0 before two readouts).

@@ -29,3 +29,15 @@ pub fn dipole_field(moment_am2: V3, source_m: V3, point_m: V3) -> V3 {
     let mr = dot(moment_am2, rh);
     [k * (3.0 * mr * rh[0] - moment_am2[0]), k * (3.0 * mr * rh[1] - moment_am2[1]), k * (3.0 * mr * rh[2] - moment_am2[2])]
 }
+
+/// Field of a level unit dipole along x at the origin, `K = 1`: at `(x, y, z)`,
+/// `B = (2x² − y² − z², 3xy, 3xz)/r⁵` (eq. 5.89 written out). Depth-free
+/// shapes: put the receiver at `(u, η, 1)` for offsets in depths.
+pub fn level_unit_field(x: f32, y: f32, z: f32) -> V3 {
+    let r2 = x * x + y * y + z * z;
+    let r5 = r2 * r2 * libm::sqrtf(r2);
+    if !(r5 > 0.0) || !r5.is_finite() {
+        return [0.0; 3];
+    }
+    [(2.0 * x * x - y * y - z * z) / r5, 3.0 * x * y / r5, 3.0 * x * z / r5]
+}

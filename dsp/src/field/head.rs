@@ -16,6 +16,12 @@ use crate::field::Source;
 
 /// Spacing of the built-in heads' upper coils above the lower ones, m.
 pub const REFERENCE_SPACING_M: f32 = 0.40;
+/// Relative coil gains accepted (1 = nominal; the input scale carries the absolute one).
+pub const GAIN_RANGE: (f32, f32) = (0.1, 10.0);
+/// Coil position coordinates accepted, m.
+pub const POSITION_RANGE_M: (f32, f32) = (-2.0, 2.0);
+/// Smallest height of the upper along coil above the lower one, m.
+pub const MIN_SPACING_M: f32 = 0.05;
 
 /// One pickup coil.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -25,7 +31,7 @@ pub struct Coil {
     pub pos_m: V3,
     /// Unit axis.
     pub axis: V3,
-    /// Gain (reading per tesla, or relative gain).
+    /// Relative gain (1 = nominal); readings are `gain·(B·axis)`.
     pub gain: f32,
 }
 
@@ -81,25 +87,29 @@ impl Head<6> {
 }
 
 impl<const N: usize> Head<N> {
-    /// Check axes are unit vectors, positions and gains finite, gains non-zero, roles in range.
+    /// Check axes are unit vectors, positions within [`POSITION_RANGE_M`], relative
+    /// gains within [`GAIN_RANGE`], roles in range, and the upper along coil at
+    /// least [`MIN_SPACING_M`] above the lower one. The error names the coil.
     pub fn validate(&self) -> Result<(), ConfigError> {
-        for c in self.coils.iter() {
+        for (i, c) in self.coils.iter().enumerate() {
+            let i = i as u8;
             let n = norm(c.axis);
             if !(libm::fabsf(n - 1.0) < 1e-3) {
-                return Err(ConfigError { param: Param::HeadGeometry, value: n, min: 0.999, max: 1.001 });
+                return Err(ConfigError { param: Param::CoilAxis(i), value: n, min: 0.999, max: 1.001 });
             }
             for p in c.pos_m {
-                ConfigError::check(Param::HeadGeometry, p, -2.0, 2.0)?;
+                ConfigError::check(Param::CoilPosition(i), p, POSITION_RANGE_M.0, POSITION_RANGE_M.1)?;
             }
-            if !c.gain.is_finite() || c.gain == 0.0 || libm::fabsf(c.gain) > 1e12 {
-                return Err(ConfigError { param: Param::HeadGeometry, value: c.gain, min: 1e-12, max: 1e12 });
-            }
+            ConfigError::check(Param::CoilGain(i), c.gain, GAIN_RANGE.0, GAIN_RANGE.1)?;
         }
         for r in self.roles.lower.iter().chain(self.roles.upper.iter()).flatten() {
             ConfigError::check(Param::HeadGeometry, *r as f32, 0.0, (N - 1) as f32)?;
         }
         if self.roles.lower[0].is_none() {
             return Err(ConfigError { param: Param::HeadGeometry, value: f32::NAN, min: 0.0, max: (N - 1) as f32 });
+        }
+        if let (Some(s), Some(up)) = (self.spacing_m(), self.roles.upper[0]) {
+            ConfigError::check(Param::CoilPosition(up), s, MIN_SPACING_M, POSITION_RANGE_M.1)?;
         }
         Ok(())
     }

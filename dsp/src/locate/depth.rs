@@ -1,117 +1,257 @@
-//! Depth estimators, each with a one-sigma uncertainty and a validity flag.
+//! Depth estimators, each giving a depth with its one-sigma uncertainty or the
+//! reason it is withheld ([`DepthEstimate`] = `Result<Depth, Withheld>`).
 //!
-//! Depth `h` is measured from the lower coil centre down to the source.
+//! Depth `h` is measured from the lower coil centre down to the source; the
+//! [`Locator`](crate::locate::locator::Locator) adds the coil height to report it
+//! below the ground.
 //!
-//! 1. **Gradient** (two coils `s` apart on one vertical, same axis, receiver over
-//!    the peak, in line). Field ∝ 1/r^n (n = 3 dipole, 1 line), so
-//!    `R = A_low/A_up = ((h+s)/h)^n` and `h = s/(R^{1/n} − 1)`.
-//!    Propagation: `σ_h/h = (h+s)/(n·s)·σ_R/R`, `σ_R/R = √((σ_low/A_low)² + (σ_up/A_up)²)`.
-//!    Off the peak the ratio of horizontal components is biased (+11 % at 0.2h
-//!    along the axis for h = 1 m, s = 0.5 m), so the estimate is only valid in
-//!    line with the vertical component small (|Bz/Bh| below a gate); elsewhere
-//!    the receiver reports no depth rather than a wrong one. Over a secondary
-//!    peak |Bz/Bh| ≈ 1.8, so a depth is never reported there.
+//! 1. **Gradient** (two coils `s` apart on one vertical, same axis). For a level
+//!    dipole on the plane through it across its axis (the receiver over the
+//!    peak along the axis) the field is along the axis with magnitude
+//!    `K/ρ³`, `ρ² = y² + z²` (Griffiths eq. 5.89), so the lower/upper ratio is
+//!    `R = ((η² + (1+g)²)/(η² + 1))^{3/2}` with `g = s/h` and `η = y/h` the
+//!    lateral offset in depths. Directly over the sonde (η = 0) this is the
+//!    textbook `R = ((h+s)/h)³`, `h = s/(R^{1/3} − 1)`; off it laterally the
+//!    ratio alone cannot tell a lateral offset from a shallower depth (walking a
+//!    line 1 m to the side of a 1.5 m sonde reads 2.09 m), which is why the
+//!    receiver needs the lateral offset (η with σ) before it shows a depth.
+//!    With an along offset `u = x/h` as well, the ratio is evaluated from the
+//!    full dipole field ([`model_ratio`]) and solved for `g` by bisection.
+//!    Uncertainty: first-order propagation of the coil noise and of the gain
+//!    tolerance (`σ_R/R`), plus the spread of `h` over the offsets' own ±1σ.
 //! 2. **Null span** (level dipole): the nulls of the horizontal field lie at
 //!    `x = ±h/√2`, so `h = L/√2 ≈ 0.7·L` for the null-to-null distance L (the
-//!    trade's rule). A pitched dipole (axis tilted α) has nulls at the roots of
-//!    `2x²cos α + 3hx·sin α − h²cos α = 0` and its main peak moves off the point
-//!    over it; from the fore and aft distances measured from the peak (what a
-//!    person walking the axis can mark) the ratio fixes α and the span fixes h.
+//!    trade's rule, common practice). A pitched dipole (axis tilted α) has nulls
+//!    at the roots of `2x²cos α + 3hx·sin α − h²cos α = 0` and its main peak
+//!    moves off the point over it; from the fore and aft distances measured from
+//!    the peak (what a person walking the axis can mark) the ratio fixes α and
+//!    the span fixes h.
 //! 3. **Known moment**: after the sonde's strength `K = μ0m/4π` is measured at a
-//!    known distance, the peak field `B = K/h³` gives `h = (K/B)^{1/3}`,
-//!    `σ_h/h = ⅓·√((σ_B/B)² + (σ_K/K)²)`.
+//!    known distance, the field over the sonde `B = K/ρ³` gives the depth, with
+//!    `σ_h/h = ⅓·√((σ_B/B)² + (σ_K/K)²)` and the lateral offset folded in as for
+//!    the gradient.
 
 use crate::field::FieldModel;
 
-/// Why a depth estimate is not valid.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Invalid {
-    /// The head lacks the coils this method needs.
-    NoCoils,
-    /// Not in line with the field (not the peak orientation).
-    NotInLine,
-    /// The vertical component is too large: not over the main peak.
-    NotOverPeak,
-    /// Signal too weak for a depth.
-    LowSnr,
-    /// The coil ratio is not physical (upper reading ≥ lower reading, or non-finite).
-    BadRatio,
-    /// The method needs a calibration that has not been made.
-    NotCalibrated,
-    /// Input distances not usable.
-    BadInput,
-    /// The fit did not converge.
-    NoFit,
-}
-
-impl Invalid {
-    /// Short name for printing.
-    pub fn name(self) -> &'static str {
-        match self {
-            Invalid::NoCoils => "no-coils",
-            Invalid::NotInLine => "not-in-line",
-            Invalid::NotOverPeak => "not-over-peak",
-            Invalid::LowSnr => "low-snr",
-            Invalid::BadRatio => "bad-ratio",
-            Invalid::NotCalibrated => "not-calibrated",
-            Invalid::BadInput => "bad-input",
-            Invalid::NoFit => "no-fit",
-        }
-    }
-}
-
-/// A depth with its one-sigma uncertainty, or the reason there is none.
+/// A depth below the lower coil centre with its one-sigma uncertainty (always > 0).
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct DepthEstimate {
-    /// Depth below the lower coil centre, m (0 when invalid).
+pub struct Depth {
+    /// Depth below the lower coil centre, m.
     pub depth_m: f32,
-    /// One-sigma uncertainty, m.
+    /// One-sigma uncertainty, m (never zero).
     pub sigma_m: f32,
-    /// Why not valid, `None` when valid.
-    pub invalid: Option<Invalid>,
 }
 
-impl DepthEstimate {
-    /// An invalid estimate.
-    pub const fn none(reason: Invalid) -> Self {
-        Self { depth_m: 0.0, sigma_m: 0.0, invalid: Some(reason) }
-    }
+/// Why a depth (or a direction) is withheld.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Withheld {
+    /// No beacon tone on the coils (wrong frequency, noise only, no input).
+    NoSignal,
+    /// The tone is there but too weak for a depth.
+    LowSnr,
+    /// The detector is still settling (start-up or a restart).
+    Settling,
+    /// A channel reached full scale: the coil ratios are distorted.
+    Clipped,
+    /// The head lacks the coils this method needs.
+    NoCoils,
+    /// Not in line with the sonde axis (turn the receiver).
+    NotInLine,
+    /// Not over the sonde along its axis.
+    NotOver,
+    /// The lateral offset from the sonde is not known well enough (sweep across).
+    LateralUnknown,
+    /// Beyond the nulls, over a secondary peak, or on the wrong side of a null.
+    SecondaryPeak,
+    /// The coil ratio is not physical (upper reading ≥ lower reading, or non-finite).
+    BadRatio,
+    /// The method needs a strength calibration that has not been made.
+    NotCalibrated,
+    /// Input values not usable.
+    BadInput,
+    /// The one-station fit did not converge.
+    NoFit,
+    /// The fit's geometry leaves the depth undetermined (ill-conditioned).
+    IllConditioned,
+    /// The field is not a clean dipole (fit residual, quadrature).
+    Distorted,
+    /// The estimate's uncertainty is too large to be of use.
+    Uncertain,
+    /// The receiver cannot yet tell which side the sonde is: walk along the handle.
+    NeedsMotion,
+}
 
-    /// A valid estimate; non-finite values become invalid.
-    pub fn valid(depth_m: f32, sigma_m: f32) -> Self {
-        if depth_m.is_finite() && sigma_m.is_finite() && depth_m > 0.0 {
-            Self { depth_m, sigma_m, invalid: None }
-        } else {
-            Self::none(Invalid::BadRatio)
+impl Withheld {
+    /// Short name for printing and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            Withheld::NoSignal => "no-signal",
+            Withheld::LowSnr => "low-snr",
+            Withheld::Settling => "settling",
+            Withheld::Clipped => "clipped",
+            Withheld::NoCoils => "no-coils",
+            Withheld::NotInLine => "not-in-line",
+            Withheld::NotOver => "not-over",
+            Withheld::LateralUnknown => "lateral-unknown",
+            Withheld::SecondaryPeak => "secondary-peak",
+            Withheld::BadRatio => "bad-ratio",
+            Withheld::NotCalibrated => "not-calibrated",
+            Withheld::BadInput => "bad-input",
+            Withheld::NoFit => "no-fit",
+            Withheld::IllConditioned => "ill-conditioned",
+            Withheld::Distorted => "distorted",
+            Withheld::Uncertain => "uncertain",
+            Withheld::NeedsMotion => "needs-motion",
         }
     }
+}
 
-    /// True when valid.
-    pub fn is_valid(&self) -> bool {
-        self.invalid.is_none()
+/// A depth with σ, or the reason there is none.
+pub type DepthEstimate = Result<Depth, Withheld>;
+
+/// A valid depth; a non-finite or non-positive value (or σ) becomes [`Withheld::BadRatio`].
+/// `σ` is floored at a millimetre so that no depth is ever shown as exact.
+pub fn depth(depth_m: f32, sigma_m: f32) -> DepthEstimate {
+    if depth_m.is_finite() && sigma_m.is_finite() && depth_m > 0.0 && sigma_m >= 0.0 {
+        Ok(Depth { depth_m, sigma_m: sigma_m.max(MIN_SIGMA_M) })
+    } else {
+        Err(Withheld::BadRatio)
     }
 }
 
-/// Gradient depth from lower and upper readings (same axis), their noise σ and spacing.
-pub fn gradient_depth(model: FieldModel, a_low: f32, a_up: f32, sigma_low: f32, sigma_up: f32, spacing_m: f32) -> DepthEstimate {
+/// Smallest σ a depth is shown with, m.
+pub const MIN_SIGMA_M: f32 = 1e-3;
+
+/// Which coil readings a ratio is formed from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum RatioOf {
+    /// The along-axis (x) components.
+    Along,
+    /// The magnitudes of the whole field (two full triads).
+    Total,
+}
+
+use crate::field::dipole::level_unit_field as level_field;
+
+/// The lower/upper ratio a level dipole gives coils `s` apart when the lower coil
+/// sits `u·h` ahead of it along its axis, `η·h` to the side and `h` above.
+/// `g = s/h`. Depth-free: every length is in units of h.
+pub fn model_ratio(model: FieldModel, of: RatioOf, u: f32, eta: f32, g: f32) -> f32 {
+    match model {
+        FieldModel::Line => {
+            // 1/ρ with ρ the distance to the line (the line along x): R = √(η²+(1+g)²)/√(η²+1).
+            libm::sqrtf((eta * eta + (1.0 + g) * (1.0 + g)) / (eta * eta + 1.0))
+        }
+        FieldModel::Dipole => {
+            let lo = level_field(u, eta, 1.0);
+            let up = level_field(u, eta, 1.0 + g);
+            match of {
+                RatioOf::Along => lo[0] / up[0],
+                RatioOf::Total => {
+                    let n = |b: [f32; 3]| libm::sqrtf(b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
+                    n(lo) / n(up)
+                }
+            }
+        }
+    }
+}
+
+/// Solve `model_ratio(u, η, g) = r` for `g = s/h` (bisection on g ∈ (0, 20]; the
+/// ratio rises with g near the point over the source). `None` when no root.
+pub fn solve_g(model: FieldModel, of: RatioOf, u: f32, eta: f32, r: f32) -> Option<f32> {
+    if !(r > 1.0) || !r.is_finite() || !u.is_finite() || !eta.is_finite() {
+        return None;
+    }
+    let f = |g: f32| model_ratio(model, of, u, eta, g) - r;
+    let (mut lo, mut hi) = (1e-4f32, 20.0f32);
+    let (flo, fhi) = (f(lo), f(hi));
+    if !(flo < 0.0 && fhi > 0.0) {
+        return None;
+    }
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if f(mid) < 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(0.5 * (lo + hi))
+}
+
+/// Where the receiver is relative to the point over the sonde, in depths, with σ:
+/// `u` along the axis (ahead of the sonde), `η` across it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Offsets {
+    /// Along-axis offset over depth.
+    pub u: f32,
+    /// Its one-sigma.
+    pub sigma_u: f32,
+    /// Lateral offset over depth.
+    pub eta: f32,
+    /// Its one-sigma.
+    pub sigma_eta: f32,
+}
+
+impl Offsets {
+    /// Exactly over the source (for checks and calibration).
+    pub const OVER: Offsets = Offsets { u: 0.0, sigma_u: 0.0, eta: 0.0, sigma_eta: 0.0 };
+}
+
+/// Two coil readings on one vertical (along components, or field magnitudes), their noise σ and spacing.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CoilPair {
+    /// Lower reading.
+    pub low: f32,
+    /// Upper reading.
+    pub up: f32,
+    /// Noise σ of the lower reading.
+    pub sigma_low: f32,
+    /// Noise σ of the upper reading.
+    pub sigma_up: f32,
+    /// Height of the upper coil above the lower, m.
+    pub spacing_m: f32,
+}
+
+/// Gradient depth from a coil pair, the relative gain tolerance between the two
+/// coils and the offsets from the point over the source.
+pub fn gradient_depth(model: FieldModel, of: RatioOf, pair: CoilPair, gain_tolerance: f32, at: Offsets) -> DepthEstimate {
+    let CoilPair { low: a_low, up: a_up, sigma_low, sigma_up, spacing_m } = pair;
     if !(spacing_m > 0.0) {
-        return DepthEstimate::none(Invalid::NoCoils);
+        return Err(Withheld::NoCoils);
     }
     if !(a_low > 0.0 && a_up > 0.0 && a_low.is_finite() && a_up.is_finite()) {
-        return DepthEstimate::none(Invalid::BadRatio);
+        return Err(Withheld::BadRatio);
     }
     let r = a_low / a_up;
-    let n = model.exponent();
-    let root = libm::powf(r, 1.0 / n);
-    if !(root > 1.0 + 1e-6) {
-        return DepthEstimate::none(Invalid::BadRatio);
-    }
-    let h = spacing_m / (root - 1.0);
-    let rel_r = libm::sqrtf((sigma_low / a_low) * (sigma_low / a_low) + (sigma_up / a_up) * (sigma_up / a_up));
-    let sigma = h * (h + spacing_m) / (n * spacing_m) * rel_r;
-    DepthEstimate::valid(h, sigma)
+    let h_of = |u: f32, eta: f32, r: f32| solve_g(model, of, u, eta, r).map(|g| spacing_m / g);
+    let Some(h) = h_of(at.u, at.eta, r) else { return Err(Withheld::BadRatio) };
+    // Noise and gain tolerance on the ratio: σ_R/R = √((σ_lo/A_lo)² + (σ_up/A_up)² + tol²).
+    let rel =
+        libm::sqrtf((sigma_low / a_low) * (sigma_low / a_low) + (sigma_up / a_up) * (sigma_up / a_up) + gain_tolerance * gain_tolerance);
+    // dh/dR by a small central step, times σ_R.
+    let dr = 1e-3 * r;
+    let dh_dr = match (h_of(at.u, at.eta, r + dr), h_of(at.u, at.eta, r - dr)) {
+        (Some(a), Some(b)) => (a - b) / (2.0 * dr),
+        (Some(a), None) => (a - h) / dr,
+        _ => 0.0,
+    };
+    let sigma_ratio = libm::fabsf(dh_dr) * r * rel;
+    // The offsets' own uncertainty: the spread of h over ±1σ of each.
+    let spread = |d: Option<f32>| d.map(|x| libm::fabsf(x - h)).unwrap_or(h);
+    let su =
+        if at.sigma_u > 0.0 { spread(h_of(at.u + at.sigma_u, at.eta, r)).max(spread(h_of(at.u - at.sigma_u, at.eta, r))) } else { 0.0 };
+    let se = if at.sigma_eta > 0.0 {
+        spread(h_of(at.u, libm::fabsf(at.eta) + at.sigma_eta, r)).max(spread(h_of(at.u, (libm::fabsf(at.eta) - at.sigma_eta).max(0.0), r)))
+    } else {
+        0.0
+    };
+    let sigma = libm::sqrtf(sigma_ratio * sigma_ratio + su * su + se * se);
+    depth(h, sigma)
 }
 
 /// Depth and pitch from the fore and aft null distances.
@@ -155,7 +295,7 @@ pub fn pitched_null_distances(alpha_rad: f32) -> (f32, f32) {
 /// bisection on [`pitched_null_distances`]), then `h = (a + b)/(f(α) + g(α))`.
 /// Uncertainties by first-order propagation (numerical derivatives).
 pub fn null_span_depth(fore_m: f32, aft_m: f32, sigma_m: f32) -> NullSpanFix {
-    let bad = NullSpanFix { depth: DepthEstimate::none(Invalid::BadInput), pitch_rad: 0.0, pitch_sigma_rad: 0.0 };
+    let bad = NullSpanFix { depth: Err(Withheld::BadInput), pitch_rad: 0.0, pitch_sigma_rad: 0.0 };
     if !(fore_m > 0.0 && aft_m > 0.0 && sigma_m >= 0.0 && fore_m.is_finite() && aft_m.is_finite() && sigma_m.is_finite()) {
         return bad;
     }
@@ -165,7 +305,7 @@ pub fn null_span_depth(fore_m: f32, aft_m: f32, sigma_m: f32) -> NullSpanFix {
     let (hb, ab) = solve_null_span(fore_m, aft_m + d).unwrap_or((h, a));
     let sh = sigma_m * libm::hypotf((hf - h) / d, (hb - h) / d);
     let sa = sigma_m * libm::hypotf((af - a) / d, (ab - a) / d);
-    NullSpanFix { depth: DepthEstimate::valid(h, sh), pitch_rad: a, pitch_sigma_rad: sa }
+    NullSpanFix { depth: depth(h, sh), pitch_rad: a, pitch_sigma_rad: sa }
 }
 
 fn solve_null_span(fore: f32, aft: f32) -> Option<(f32, f32)> {
@@ -193,17 +333,32 @@ fn solve_null_span(fore: f32, aft: f32) -> Option<(f32, f32)> {
     Some(((fore + aft) / (f + b), al))
 }
 
-/// Depth from the peak field `b` (σ `sigma_b`) and a calibrated strength `k` (σ `sigma_k`):
-/// `K = μ0m/4π` (T·m³) for a dipole, `μ0I/2π` (T·m) for a line.
-pub fn known_moment_depth(model: FieldModel, b: f32, sigma_b: f32, k: f32, sigma_k: f32) -> DepthEstimate {
+/// Depth from the field `b` (σ `sigma_b`, the magnitude at the lower coils) near
+/// the point over the source and a calibrated strength `k` (σ `sigma_k`):
+/// `K = μ0m/4π` (T·m³) for a dipole, `μ0I/2π` (T·m) for a line. With the
+/// receiver at offsets (u, η) (in depths) from the point over a level dipole,
+/// `b = K·f(u, η)/h³`, `f = |B|` of the unit dipole at `(u, η, 1)` (1 over it);
+/// for a line `b = K/(h·√(1+η²))`. So `h = (K·f/b)^{1/n}`, and
+/// `σ_h/h = (1/n)·√((σ_B/B)² + (σ_K/K)²)` with the offsets' ±1σ spread added.
+pub fn known_moment_depth(model: FieldModel, b: f32, sigma_b: f32, k: f32, sigma_k: f32, at: Offsets) -> DepthEstimate {
     if !(k > 0.0) || !k.is_finite() {
-        return DepthEstimate::none(Invalid::NotCalibrated);
+        return Err(Withheld::NotCalibrated);
     }
     if !(b > 0.0) || !b.is_finite() {
-        return DepthEstimate::none(Invalid::LowSnr);
+        return Err(Withheld::LowSnr);
     }
     let n = model.exponent();
-    let h = libm::powf(k / b, 1.0 / n);
+    let shape = |u: f32, eta: f32| match model {
+        FieldModel::Line => 1.0 / libm::sqrtf(1.0 + eta * eta),
+        FieldModel::Dipole => {
+            let f = level_field(u, eta, 1.0);
+            libm::sqrtf(f[0] * f[0] + f[1] * f[1] + f[2] * f[2])
+        }
+    };
+    let h_of = |u: f32, eta: f32| libm::powf(k * shape(u, eta) / b, 1.0 / n);
+    let h = h_of(at.u, at.eta);
     let rel = libm::sqrtf((sigma_b / b) * (sigma_b / b) + (sigma_k / k) * (sigma_k / k)) / n;
-    DepthEstimate::valid(h, h * rel)
+    let su = libm::fabsf(h_of(libm::fabsf(at.u) + at.sigma_u, at.eta) - h);
+    let se = libm::fabsf(h_of(at.u, libm::fabsf(at.eta) + at.sigma_eta) - h);
+    depth(h, libm::sqrtf((h * rel) * (h * rel) + su * su + se * se))
 }

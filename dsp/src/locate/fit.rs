@@ -25,20 +25,65 @@ pub const P: usize = 6;
 /// Levenberg–Marquardt iterations per start, at most.
 pub const MAX_ITERATIONS: usize = 60;
 
-/// Result of the one-station fix.
+/// A fitted value with its one-sigma (Cramér–Rao from the Jacobian; infinite
+/// when the geometry leaves it undetermined).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Estimate {
+    /// Value.
+    pub value: f32,
+    /// One-sigma.
+    pub sigma: f32,
+}
+
+/// Result of the one-station fix, in the head's frame (x ahead along the
+/// handle, y to the left, from the lower coil centre).
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Fix {
-    /// (x ahead m, y left m, depth m, yaw rad, pitch rad, K).
-    pub params: [f32; P],
-    /// One-sigma of each parameter (Cramér–Rao from the Jacobian).
-    pub sigma: [f32; P],
-    /// χ² of the weighted residuals.
+    /// The sonde ahead of the lower coil centre, m.
+    pub ahead_m: Estimate,
+    /// The sonde to the left, m.
+    pub left_m: Estimate,
+    /// The sonde's depth below the lower coil centre, m.
+    pub depth_m: Estimate,
+    /// Yaw of the sonde axis from the handle, rad, in (−π/2, π/2].
+    pub yaw_rad: Estimate,
+    /// Pitch of the sonde axis, rad (positive: the end at +yaw up).
+    pub pitch_rad: Estimate,
+    /// Strength K (reading units·m³), signed.
+    pub strength: Estimate,
+    /// χ² of the weighted residuals (the lateral prior's row included).
     pub chi2: f32,
-    /// Degrees of freedom (coils − unknowns).
+    /// Degrees of freedom (readings − unknowns).
     pub dof: i32,
-    /// Converged.
+    /// The descent ended at a finite χ² with a positive depth.
     pub converged: bool,
+}
+
+impl Fix {
+    /// Parameters as the fit orders them: (ahead, left, depth, yaw, pitch, K).
+    pub fn params(&self) -> [f32; P] {
+        [self.ahead_m.value, self.left_m.value, self.depth_m.value, self.yaw_rad.value, self.pitch_rad.value, self.strength.value]
+    }
+
+    fn from_params(th: [F; P], sig: [f32; P], chi2: f32, dof: i32, converged: bool) -> Self {
+        let e = |i: usize| Estimate { value: th[i], sigma: sig[i] };
+        Fix { ahead_m: e(0), left_m: e(1), depth_m: e(2), yaw_rad: e(3), pitch_rad: e(4), strength: e(5), chi2, dof, converged }
+    }
+}
+
+/// What the receiver already knows of the lateral offset, as a prior on
+/// `y/h` (the sonde's left offset over its depth) with its one-sigma. Directly
+/// over a level sonde the readings do not depend on y at first order (on the
+/// plane across its axis the field is along the axis, `−K·x̂/ρ³`): a lateral
+/// offset and a shallower depth give the same readings, so the fit needs it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct LateralPrior {
+    /// y/h.
+    pub left_over_depth: f32,
+    /// One-sigma of y/h.
+    pub sigma: f32,
 }
 
 /// The float type of the fit's arithmetic.
@@ -93,18 +138,29 @@ pub fn model<const N: usize>(head: &Head<N>, th: &[F; P]) -> [F; N] {
 
 /// Fit readings `a` with noise `sigma`; `known_k` fixes K when calibrated.
 pub fn fit<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], known_k: Option<f32>) -> Fix {
-    fit_from(head, a, sigma, known_k, None)
+    fit_from(head, a, sigma, known_k, None, None)
 }
 
 /// As [`fit`], starting from a previous fix when given (a receiver moving a few
 /// centimetres between readouts is close to it): one descent from there, and
 /// the full set of starts only if that lands poorly (χ² above 4 per reading).
-pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], known_k: Option<f32>, start: Option<[f32; P]>) -> Fix {
+/// `prior` adds the lateral offset known from earlier readouts as one more row.
+pub fn fit_from<const N: usize>(
+    head: &Head<N>,
+    a: &[f32; N],
+    sigma: &[f32; N],
+    known_k: Option<f32>,
+    start: Option<[f32; P]>,
+    prior: Option<LateralPrior>,
+) -> Fix {
     let nfree = if known_k.is_some() { P - 1 } else { P };
-    let fail = Fix { params: [0.0; P], sigma: [0.0; P], chi2: f32::INFINITY, dof: N as i32 - nfree as i32, converged: false };
+    let prior = prior.filter(|p| p.left_over_depth.is_finite() && p.sigma.is_finite() && p.sigma > 0.0);
+    let dof = N as i32 + prior.is_some() as i32 - nfree as i32;
+    let fail = Fix::from_params([0.0; P], [f32::INFINITY; P], f32::INFINITY, dof, false);
     if N < nfree || a.iter().chain(sigma.iter()).any(|v| !v.is_finite()) || sigma.iter().any(|s| *s <= 0.0) {
         return fail;
     }
+    let pb = Problem { head, a, sigma, nfree, prior };
     // Start: gradient depth from the along-coil pair, bearing, ratio.
     let r = head.roles;
     let get = |i: Option<u8>| i.map(|k| a[k as usize] as F).unwrap_or(0.0);
@@ -129,7 +185,7 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
         if let Some(k) = known_k {
             th[5] = if th[5] < 0.0 { -(k as F).abs() } else { (k as F).abs() };
         }
-        let chi = lm(head, a, sigma, &mut th, nfree);
+        let chi = lm(&pb, &mut th);
         if chi.is_finite() && chi <= 4.0 * N as F {
             best = Some((th, chi));
         }
@@ -143,7 +199,7 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
         if let Some(k) = known_k {
             th[5] = if th[5] < 0.0 { -(k as F).abs() } else { (k as F).abs() };
         }
-        let chi = lm(head, a, sigma, &mut th, nfree);
+        let chi = lm(&pb, &mut th);
         if chi.is_finite() && best.map(|b| chi < b.1).unwrap_or(true) {
             best = Some((th, chi));
         }
@@ -157,45 +213,56 @@ pub fn fit_from<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], 
         th[4] = -th[4];
         th[5] = -th[5];
     }
-    let (jtj, _) = normal(head, a, sigma, &th, nfree);
-    let mut sig = [0.0f32; P];
+    let (jtj, _) = normal(&pb, &th);
+    let mut sig = [f32::INFINITY; P];
     if let Some(inv) = invert(&jtj, nfree) {
         for i in 0..nfree {
-            sig[i] = libm::sqrtf(inv[i][i].max(0.0)) as f32;
+            let v = inv[i][i];
+            sig[i] = if v.is_finite() && v >= 0.0 { libm::sqrtf(v) } else { f32::INFINITY };
         }
     }
-    let params = th;
+    if nfree < P {
+        sig[P - 1] = 0.0;
+    }
     let ok = chi2.is_finite() && th[2] > 0.0;
-    Fix { params, sigma: sig, chi2, dof: N as i32 - nfree as i32, converged: ok }
+    Fix::from_params(th, sig, chi2, dof, ok)
 }
 
-fn residuals<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[F; P]) -> ([F; N], F) {
-    let m = model(head, th);
+/// The fit's inputs, bundled.
+struct Problem<'a, const N: usize> {
+    head: &'a Head<N>,
+    a: &'a [f32; N],
+    sigma: &'a [f32; N],
+    nfree: usize,
+    prior: Option<LateralPrior>,
+}
+
+/// Weighted residuals of the readings and of the prior row, and χ².
+fn residuals<const N: usize>(pb: &Problem<'_, N>, th: &[F; P]) -> ([F; N], F, F) {
+    let m = model(pb.head, th);
     let mut r = [0.0; N];
     let mut chi = 0.0;
     for c in 0..N {
-        r[c] = (m[c] - a[c] as F) / sigma[c] as F;
+        r[c] = (m[c] - pb.a[c]) / pb.sigma[c];
         chi += r[c] * r[c];
     }
-    (r, chi)
+    let rp = match pb.prior {
+        Some(p) if th[2] > 0.0 => (th[1] / th[2] - p.left_over_depth) / p.sigma,
+        _ => 0.0,
+    };
+    (r, rp, chi + rp * rp)
 }
 
-fn jacobian<const N: usize>(head: &Head<N>, sigma: &[f32; N], th: &[F; P], nfree: usize) -> [[F; P]; N] {
-    let (_, mut j) = model_jacobian(head, th);
-    for c in 0..N {
-        for k in 0..P {
-            j[c][k] = if k < nfree { j[c][k] / sigma[c] as F } else { 0.0 };
-        }
-    }
-    j
-}
-
-fn normal<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[F; P], nfree: usize) -> ([[F; P]; P], [F; P]) {
-    let j = jacobian(head, sigma, th, nfree);
-    let (r, _) = residuals(head, a, sigma, th);
+fn normal<const N: usize>(pb: &Problem<'_, N>, th: &[F; P]) -> ([[F; P]; P], [F; P]) {
+    let (_, mut j) = model_jacobian(pb.head, th);
+    let (r, rp, _) = residuals(pb, th);
+    let nfree = pb.nfree;
     let mut jtj = [[0.0; P]; P];
     let mut jtr = [0.0; P];
     for c in 0..N {
+        for k in 0..P {
+            j[c][k] /= pb.sigma[c];
+        }
         for p in 0..nfree {
             jtr[p] += j[c][p] * r[c];
             for q in 0..nfree {
@@ -203,14 +270,28 @@ fn normal<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &[
             }
         }
     }
+    if let Some(pr) = pb.prior {
+        // Row ∂(y/h)/∂θ / σ: (0, 1/h, −y/h², 0, 0, 0)/σ.
+        let h = th[2].max(1e-3);
+        let mut jp = [0.0; P];
+        jp[1] = 1.0 / (h * pr.sigma);
+        jp[2] = -th[1] / (h * h * pr.sigma);
+        for p in 0..nfree {
+            jtr[p] += jp[p] * rp;
+            for q in 0..nfree {
+                jtj[p][q] += jp[p] * jp[q];
+            }
+        }
+    }
     (jtj, jtr)
 }
 
-fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [F; P], nfree: usize) -> F {
+fn lm<const N: usize>(pb: &Problem<'_, N>, th: &mut [F; P]) -> F {
+    let nfree = pb.nfree;
     let mut lambda = 1e-3;
-    let (_, mut chi) = residuals(head, a, sigma, th);
+    let (_, _, mut chi) = residuals(pb, th);
     for _ in 0..MAX_ITERATIONS {
-        let (jtj, jtr) = normal(head, a, sigma, th, nfree);
+        let (jtj, jtr) = normal(pb, th);
         let mut m = jtj;
         for i in 0..nfree {
             m[i][i] += lambda * jtj[i][i].max(1e-30);
@@ -227,7 +308,7 @@ fn lm<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], th: &mut [
         if !(trial[2] > 0.01) {
             trial[2] = th[2] * 0.5;
         }
-        let (_, c2) = residuals(head, a, sigma, &trial);
+        let (_, _, c2) = residuals(pb, &trial);
         if c2.is_finite() && c2 < chi {
             let rel = (chi - c2) / chi.max(1e-30);
             *th = trial;

@@ -137,7 +137,9 @@ fn main() -> ! {
     critical_section::with(|cs| ADC.borrow_ref_mut(cs).replace(adc));
     // SAFETY: the handler only touches state behind critical sections.
     #[allow(unsafe_code)] // unmasking an interrupt is `unsafe` in cortex-m; the one place this crate needs it
-    unsafe { cortex_m::peripheral::NVIC::unmask(pac::Interrupt::EXTI0) };
+    unsafe {
+        cortex_m::peripheral::NVIC::unmask(pac::Interrupt::EXTI0)
+    };
 
     // Speaker on TIM3 channel 2 (PB5).
     let (mut pwm_mgr, (_, ch2, ..)) = dp.TIM3.pwm_hz(1.kHz(), &mut rcc);

@@ -11,8 +11,9 @@
 
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::field::Source;
+use undertone_dsp::locate::depth::{gradient_depth, CoilPair, Offsets, RatioOf};
 use undertone_dsp::phasor::Phasor;
-use undertone_dsp::{Beacon, Detector, DetectorKind, DetectorSettings, Head, Receiver, ReceiverSettings, Window};
+use undertone_dsp::{Beacon, Detector, DetectorKind, DetectorSettings, FieldModel, Head, Receiver, ReceiverSettings, Window};
 use undertone_tests::{mean_var, Noise};
 
 fn amplitude_row(kind: DetectorKind, name: &str, snr_db: f64) {
@@ -80,7 +81,18 @@ fn depth_row(depth_m: f32, snr_db: f64) {
         if let Some(r) = rx.push(&f) {
             k += 1;
             if r.t_s > settle && k % every == 0 {
-                if let Some(d) = r.gradient.is_valid().then_some(r.gradient) {
+                // The gradient estimator on the receiver's own coil readings, over the sonde
+                // by construction (a standing receiver cannot tell that itself, so the
+                // locator withholds; the estimator's efficiency is what is measured here).
+                let f = &r.field;
+                let est = gradient_depth(
+                    FieldModel::Dipole,
+                    RatioOf::Along,
+                    CoilPair { low: f.lower[0], up: f.upper[0], sigma_low: f.sigma[0], sigma_up: f.sigma[3], spacing_m: 0.4 },
+                    0.0,
+                    Offsets::OVER,
+                );
+                if let Ok(d) = est {
                     depths.push(d.depth_m as f64);
                     reported.push(d.sigma_m as f64);
                 }

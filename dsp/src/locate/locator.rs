@@ -1,0 +1,656 @@
+//! The locator: from one detection's coil phasors to what the receiver shows,
+//! each answer with its validity.
+//!
+//! Steps, one small function each:
+//! 1. [`field`](Locator::field): phasors → signed field per coil (calibrated).
+//! 2. [`signal`](classify_signal): is there a tone? `no-signal` below
+//!    [`LocatorSettings::signal_snr_db`] (the lower triad's magnitude over its
+//!    noise σ; with noise alone that magnitude follows a χ distribution, and
+//!    15 dB puts the chance of a false tone under 1e-4 per readout even for the
+//!    six noise components the common-phase projection can draw on: the χ²
+//!    tail with 6 degrees of freedom at 31.6, Abramowitz & Stegun eq. 26.4.21),
+//!    `weak` below [`LocatorSettings::locate_snr_db`] (no depth).
+//! 3. Orientation with hysteresis (in line / crossed).
+//! 4. The along/across [`Track`] (4-coil heads; also the 6-coil head's lower triad).
+//! 5. The one-station fit (6-coil heads), with the lateral offset known from
+//!    the track as a prior.
+//! 6. Offsets from the point over the sonde (fit where it is well determined,
+//!    else the track) → [`Guidance`].
+//! 7. Depths, each gated (signal, settling, clipping, over the sonde in both
+//!    directions, not beyond the nulls) and with σ covering noise, the coils'
+//!    gain tolerance and the offsets' own uncertainty.
+
+use crate::error::{ConfigError, Param};
+use crate::field::head::Head;
+use crate::field::FieldModel;
+use crate::flags::Flags;
+use crate::locate::calibration::Calibration;
+use crate::locate::components::FieldVector;
+use crate::locate::depth::{gradient_depth, known_moment_depth, CoilPair, Depth, DepthEstimate, Offsets, RatioOf, Withheld};
+use crate::locate::fit::{fit_from, Fix, LateralPrior, P};
+use crate::locate::guidance::{over_tolerance_m, Across, Along, Distance, Guidance, Hint};
+use crate::locate::orientation::{Hysteresis, Orientation};
+use crate::locate::track::{Track, TrackInput, TrackState};
+use crate::phasor::C32;
+
+/// Is there a beacon tone to locate?
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Signal {
+    /// No tone: noise only, wrong frequency, or no input.
+    Absent,
+    /// A tone, too weak for a depth.
+    Weak,
+    /// A tone strong enough to locate and give a depth.
+    Good,
+}
+
+impl Signal {
+    /// Short name for printing and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            Signal::Absent => "no-signal",
+            Signal::Weak => "weak",
+            Signal::Good => "good",
+        }
+    }
+}
+
+/// Everything the locator is configured with.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LocatorSettings {
+    /// Source model for depth.
+    pub model: FieldModel,
+    /// Stored calibration.
+    pub calibration: Calibration,
+    /// Orientation hysteresis.
+    pub hysteresis: Hysteresis,
+    /// Below this SNR (lower triad magnitude over its noise σ) there is no signal, dB.
+    pub signal_snr_db: f32,
+    /// Below this SNR the signal is weak: no depth, dB.
+    pub locate_snr_db: f32,
+    /// Relative gain uncertainty between coils after calibration (0.01 = ±1 %, one sigma).
+    pub gain_tolerance: f32,
+    /// Height of the lower coil centre above the ground, m.
+    pub coil_height_m: f32,
+    /// Skin depth of the ground assumed for the gradient depth, m (infinite: no correction).
+    pub skin_depth_m: f32,
+    /// Quadrature residue above which the field is flagged.
+    pub quadrature_limit: f32,
+    /// Run the one-station fit when the head has two full triads.
+    pub fit: bool,
+    /// Run the fit on every n-th readout (warm-started it costs about 0.24 M
+    /// instructions on a Cortex-M4F; every readout at 20/s is about 5 % of 100 MHz).
+    pub fit_every: u8,
+    /// χ² per degree of freedom above which the field is flagged as distorted.
+    pub distortion_chi2: f32,
+    /// Largest σ/depth at which a depth is shown.
+    pub max_relative_sigma: f32,
+}
+
+/// Smallest and largest gain tolerance accepted.
+pub const GAIN_TOLERANCE_RANGE: (f32, f32) = (0.0, 0.2);
+/// Smallest and largest coil height accepted, m.
+pub const COIL_HEIGHT_RANGE_M: (f32, f32) = (0.0, 2.0);
+/// Range of the signal thresholds, dB.
+pub const SNR_THRESHOLD_RANGE_DB: (f32, f32) = (6.0, 60.0);
+
+impl Default for LocatorSettings {
+    fn default() -> Self {
+        Self {
+            model: FieldModel::Dipole,
+            calibration: Calibration::default(),
+            hysteresis: Hysteresis::default(),
+            signal_snr_db: 15.0,
+            locate_snr_db: 20.0,
+            gain_tolerance: 0.01,
+            coil_height_m: 0.1,
+            skin_depth_m: f32::INFINITY,
+            quadrature_limit: 0.25,
+            fit: true,
+            fit_every: 1,
+            distortion_chi2: 9.0,
+            max_relative_sigma: 0.05,
+        }
+    }
+}
+
+impl LocatorSettings {
+    /// Check every field; the first one out of range is returned.
+    pub fn validate(&self) -> Result<(), ConfigError> {
+        self.hysteresis.validate()?;
+        ConfigError::check(Param::GainTolerance, self.gain_tolerance, GAIN_TOLERANCE_RANGE.0, GAIN_TOLERANCE_RANGE.1)?;
+        ConfigError::check(Param::CoilHeight, self.coil_height_m, COIL_HEIGHT_RANGE_M.0, COIL_HEIGHT_RANGE_M.1)?;
+        ConfigError::check(Param::SignalThreshold, self.signal_snr_db, SNR_THRESHOLD_RANGE_DB.0, SNR_THRESHOLD_RANGE_DB.1)?;
+        ConfigError::check(Param::SignalThreshold, self.locate_snr_db, self.signal_snr_db, SNR_THRESHOLD_RANGE_DB.1)?;
+        if !(self.skin_depth_m > 0.0) {
+            return Err(ConfigError { param: Param::Distance, value: self.skin_depth_m, min: 0.0, max: f32::INFINITY });
+        }
+        Ok(())
+    }
+}
+
+/// The depth to show: the valid estimate with the smallest σ.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ShownDepth {
+    /// Which method.
+    pub method: DepthMethod,
+    /// Depth below the lower coil centre, with σ.
+    pub depth: Depth,
+    /// The same below the ground (depth − coil height), m.
+    pub below_ground_m: f32,
+}
+
+/// A depth method.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum DepthMethod {
+    /// Two coils at different heights.
+    Gradient,
+    /// The one-station dipole fit.
+    Fit,
+    /// Field over the sonde and a calibrated strength.
+    KnownMoment,
+}
+
+impl DepthMethod {
+    /// Short name for printing and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            DepthMethod::Gradient => "gradient",
+            DepthMethod::Fit => "fit",
+            DepthMethod::KnownMoment => "known-moment",
+        }
+    }
+}
+
+/// What the locator found in one detection.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Located<const N: usize> {
+    /// Signed field at the head.
+    pub field: FieldVector<N>,
+    /// Tone present?
+    pub signal: Signal,
+    /// SNR of the lower triad's field magnitude over its noise σ, dB.
+    pub snr_db: f32,
+    /// Orientation state.
+    pub state: Orientation,
+    /// Which way to walk.
+    pub guidance: Guidance,
+    /// Gradient depth.
+    pub gradient: DepthEstimate,
+    /// Known-moment depth.
+    pub known_moment: DepthEstimate,
+    /// One-station fit depth (6-coil heads).
+    pub fit_depth: DepthEstimate,
+    /// The depth to show, if any.
+    pub depth: Option<ShownDepth>,
+    /// The one-station fix, when the fit ran.
+    pub fix: Option<Fix>,
+    /// The track's state (for reports and tests).
+    pub track: TrackState,
+    /// Flags the locator sets: NO_SIGNAL, WEAK, QUADRATURE, DISTORTED.
+    pub flags: Flags,
+}
+
+/// What the locator needs of the detection besides the phasors.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Timing {
+    /// Time of the readout, s.
+    pub t_s: f64,
+    /// Seconds over which successive readouts' noise is correlated (≈ 1/bandwidth).
+    pub noise_corr_s: f32,
+    /// Delay from the data's centre to the readout, s.
+    pub group_delay_s: f32,
+}
+
+/// The locator.
+#[derive(Clone, Debug)]
+pub struct Locator<const N: usize> {
+    settings: LocatorSettings,
+    head: Head<N>,
+    state: Orientation,
+    track: Track,
+    last_fix: Option<[f32; P]>,
+    held_fix: Option<Fix>,
+    readouts: u32,
+    last_depth_m: Option<f32>,
+}
+
+/// The best lateral prior a fit can take when nothing is known (y/h within ±3).
+const VAGUE_SIGMA: f32 = 3.0;
+
+/// Classify the signal from the lower triad's SNR (amplitude ratio).
+pub fn classify_signal(snr: f32, s: &LocatorSettings) -> Signal {
+    let db = 20.0 * libm::log10f(snr.max(1e-9));
+    if !(db >= s.signal_snr_db) {
+        Signal::Absent
+    } else if db < s.locate_snr_db {
+        Signal::Weak
+    } else {
+        Signal::Good
+    }
+}
+
+impl<const N: usize> Locator<N> {
+    /// Validate and build.
+    pub fn new(settings: LocatorSettings, head: Head<N>) -> Result<Self, ConfigError> {
+        settings.validate()?;
+        head.validate()?;
+        Ok(Self {
+            settings,
+            head,
+            state: Orientation::Unknown,
+            track: Track::new(),
+            last_fix: None,
+            held_fix: None,
+            readouts: 0,
+            last_depth_m: None,
+        })
+    }
+
+    /// Settings in force.
+    pub fn settings(&self) -> &LocatorSettings {
+        &self.settings
+    }
+
+    /// The head.
+    pub fn head(&self) -> &Head<N> {
+        &self.head
+    }
+
+    /// Replace the calibration.
+    pub fn set_calibration(&mut self, cal: Calibration) {
+        self.settings.calibration = cal;
+    }
+
+    /// Forget what was learnt from earlier readouts (after a converter restart or a settings change).
+    pub fn forget(&mut self) {
+        self.track.reset();
+        self.last_fix = None;
+        self.held_fix = None;
+        self.last_depth_m = None;
+    }
+
+    /// Step 1: signed field per coil, the upper coils' calibrated gain applied.
+    pub fn field(&self, phasors: &[C32; N], noise_sigma: &[f32; N]) -> FieldVector<N> {
+        let mut field = FieldVector::from_phasors(&self.head, phasors, noise_sigma);
+        let cu = self.settings.calibration.upper_gain;
+        for k in 0..3 {
+            if let Some(u) = self.head.roles.upper[k] {
+                field.signed[u as usize] *= cu;
+                field.sigma[u as usize] *= cu;
+                field.upper[k] *= cu;
+            }
+        }
+        field
+    }
+
+    /// Locate from one detection's phasors. `det_flags` are the detector's
+    /// (CLIPPED, SETTLING, … decide what may be shown).
+    pub fn locate(&mut self, phasors: &[C32; N], noise_sigma: &[f32; N], det_flags: Flags, timing: Timing) -> Located<N> {
+        let s = self.settings;
+        let field = self.field(phasors, noise_sigma);
+        let lo = self.head.roles.lower;
+        let sig_lo = lo.iter().flatten().map(|&i| field.sigma[i as usize]).fold(0.0f32, f32::max).max(1e-30);
+        let snr = (field.total / sig_lo).clamp(0.0, 1e15);
+        let snr_db = 20.0 * libm::log10f(snr.max(1e-6));
+        // A detection with a non-finite phasor or no noise estimate on the lower coils is not
+        // a usable measurement (the detector flags the cause); nothing is located from it.
+        let usable = lo.iter().flatten().all(|&i| {
+            let (p, n) = (phasors[i as usize], noise_sigma[i as usize]);
+            p.is_finite() && n.is_finite() && n > 0.0
+        });
+        let signal = if !usable { Signal::Absent } else { classify_signal(snr, &s) };
+        let present = signal != Signal::Absent;
+        self.state = s.hysteresis.next(self.state, field.bearing_rad.to_degrees(), present && field.horizontal > 3.0 * sig_lo);
+        let settling = det_flags.contains(Flags::SETTLING);
+        let clipped = det_flags.contains(Flags::CLIPPED);
+        // 4. The track (needs the lower triad).
+        let triad = lo.iter().all(|r| r.is_some());
+        let track = if present && !settling && triad {
+            self.track.update(&TrackInput {
+                t_s: timing.t_s as f32,
+                lower: field.lower,
+                sigma: sig_lo,
+                noise_corr_s: timing.noise_corr_s,
+                group_delay_s: timing.group_delay_s,
+            })
+        } else {
+            if !present {
+                self.track.note_absent(timing.t_s as f32);
+            }
+            *self.track.state()
+        };
+        // 5. The fit.
+        let fix = self.fix(&field, &track, present && !settling && signal == Signal::Good);
+        let distorted = fix.map(|f| f.dof > 0 && f.chi2 / f.dof as f32 > s.distortion_chi2).unwrap_or(false);
+        // 6. Offsets and guidance.
+        let h_hint = self.last_depth_m.or(fix.filter(|f| f.converged).map(|f| f.depth_m.value));
+        let offsets = self.offsets(&track, fix.as_ref(), h_hint);
+        let mut guidance = if !present {
+            Guidance::unsure(Withheld::NoSignal, Hint::Wait)
+        } else if settling {
+            Guidance::unsure(Withheld::Settling, Hint::Wait)
+        } else {
+            self.guidance(&offsets, h_hint, clipped)
+        };
+        guidance.vertical_ratio = field.vertical_ratio();
+        // 7. Depths.
+        let gate = self.depth_gate(signal, settling, clipped, distorted, &offsets, &guidance);
+        let (gradient, known) = match gate {
+            Err(w) => (Err(w), Err(w)),
+            Ok(at) => (self.gradient(&field, at), self.known_moment(&field, sig_lo, at)),
+        };
+        let fit_depth = self.fit_depth(fix.as_ref(), signal, settling, clipped, distorted);
+        let mut best: Option<(DepthMethod, Depth)> = None;
+        for (m, e) in [(DepthMethod::Gradient, gradient), (DepthMethod::Fit, fit_depth), (DepthMethod::KnownMoment, known)] {
+            if let Ok(d) = e {
+                if best.map(|b| d.sigma_m < b.1.sigma_m).unwrap_or(true) {
+                    best = Some((m, d));
+                }
+            }
+        }
+        if let Some((_, d)) = best {
+            self.last_depth_m = Some(d.depth_m);
+        }
+        let depth = best.map(|(method, depth)| ShownDepth { method, depth, below_ground_m: depth.depth_m - s.coil_height_m });
+        let mut flags = Flags::NONE;
+        flags.set(Flags::NO_SIGNAL, !present);
+        flags.set(Flags::WEAK, signal == Signal::Weak);
+        flags.set(Flags::QUADRATURE, present && field.quadrature > s.quadrature_limit);
+        flags.set(Flags::DISTORTED, distorted);
+        Located { field, signal, snr_db, state: self.state, guidance, gradient, known_moment: known, fit_depth, depth, fix, track, flags }
+    }
+
+    /// Step 5: the one-station fit, when the head has two triads (every `fit_every` readouts).
+    fn fix(&mut self, field: &FieldVector<N>, track: &TrackState, usable: bool) -> Option<Fix> {
+        let s = &self.settings;
+        let r = self.head.roles;
+        let triads = r.lower.iter().chain(r.upper.iter()).all(|x| x.is_some());
+        if !(N >= 6 && s.fit && triads && s.model == FieldModel::Dipole && usable) {
+            self.held_fix = None;
+            return None;
+        }
+        self.readouts = self.readouts.wrapping_add(1);
+        let every = s.fit_every.max(1) as u32;
+        if self.readouts % every != 1 % every && self.held_fix.is_some() {
+            return self.held_fix;
+        }
+        let k = if s.calibration.strength > 0.0 { Some(s.calibration.strength) } else { None };
+        let mut sig = field.sigma;
+        for v in sig.iter_mut() {
+            *v = v.max(1e-30);
+        }
+        // The track's lateral offset, turned into the head frame: the sonde is
+        // −u·h·sin β − η·h·cos β to the left; over depth: −u sin β − η cos β.
+        let prior = if track.sigma_eta.is_finite() {
+            let (sb, cb) = (libm::sinf(track.axis_rad), libm::cosf(track.axis_rad));
+            let u = if track.placed { track.u } else { 0.0 };
+            let su = if track.placed { track.sigma_u } else { 1.0 };
+            LateralPrior {
+                left_over_depth: -u * sb - track.eta * cb,
+                sigma: libm::hypotf(track.sigma_eta * cb, su * sb).clamp(0.02, VAGUE_SIGMA),
+            }
+        } else {
+            LateralPrior { left_over_depth: 0.0, sigma: VAGUE_SIGMA }
+        };
+        let f = fit_from(&self.head, &field.signed, &sig, k, self.last_fix, Some(prior));
+        self.last_fix = f.converged.then_some(f.params());
+        self.held_fix = Some(f);
+        Some(f)
+    }
+
+    /// Step 6a: the receiver's offsets from the point over the sonde, in depths.
+    fn offsets(&self, track: &TrackState, fix: Option<&Fix>, h_hint: Option<f32>) -> Option<Placement> {
+        // The fit, where it has converged and placed the sonde precisely along the axis.
+        if let Some(f) = fix.filter(|f| f.converged && f.depth_m.value > 0.0) {
+            let h = f.depth_m.value;
+            if f.ahead_m.sigma < 0.1 * h && f.depth_m.sigma < 0.2 * h {
+                // The fit's frame is the head's: ahead and left of the sonde directly.
+                return Some(Placement {
+                    ahead_m: Some(Distance { value_m: f.ahead_m.value, sigma_m: f.ahead_m.sigma }),
+                    left_m: Some(Distance { value_m: f.left_m.value, sigma_m: f.left_m.sigma }).filter(|d| d.sigma_m.is_finite()),
+                    inside: (f.ahead_m.value * f.ahead_m.value) < 0.5 * h * h,
+                    axis_rad: f.yaw_rad.value,
+                    offsets: Offsets {
+                        u: -(f.ahead_m.value * libm::cosf(f.yaw_rad.value) + f.left_m.value * libm::sinf(f.yaw_rad.value)) / h,
+                        sigma_u: f.ahead_m.sigma / h,
+                        eta: (f.ahead_m.value * libm::sinf(f.yaw_rad.value) - f.left_m.value * libm::cosf(f.yaw_rad.value)) / h,
+                        sigma_eta: f.left_m.sigma / h,
+                    },
+                });
+            }
+        }
+        if !track.placed {
+            return None;
+        }
+        let (sb, cb) = (libm::sinf(track.axis_rad), libm::cosf(track.axis_rad));
+        let at = Offsets { u: track.u, sigma_u: track.sigma_u, eta: track.eta, sigma_eta: track.sigma_eta };
+        let dist = |h: f32| {
+            // The sonde relative to the receiver, head frame: −u·h·m̂ − η·h·(ẑ×m̂), m̂ = (cos β, sin β).
+            let ahead = Distance { value_m: h * (-at.u * cb + at.eta * sb), sigma_m: h * libm::hypotf(at.sigma_u * cb, at.sigma_eta * sb) };
+            let left = Distance { value_m: h * (-at.u * sb - at.eta * cb), sigma_m: h * libm::hypotf(at.sigma_u * sb, at.sigma_eta * cb) };
+            (ahead, left)
+        };
+        let (ahead, left) = match h_hint {
+            Some(h) => {
+                let (a, l) = dist(h);
+                (Some(a), Some(l).filter(|d| d.sigma_m.is_finite()))
+            }
+            None => (None, None),
+        };
+        Some(Placement { ahead_m: ahead, left_m: left, inside: track.inside, axis_rad: track.axis_rad, offsets: at })
+    }
+
+    /// Step 6b: guidance from the placement.
+    fn guidance(&self, placement: &Option<Placement>, h_hint: Option<f32>, clipped: bool) -> Guidance {
+        let Some(p) = placement else {
+            return Guidance::unsure(Withheld::NeedsMotion, Hint::WalkAlong);
+        };
+        let mut g = Guidance {
+            along: Along::Unsure,
+            across: Across::Unsure,
+            ahead: p.ahead_m,
+            left: p.left_m,
+            why: None,
+            hint: Hint::WalkAlong,
+            vertical_ratio: 0.0,
+        };
+        let cb = libm::cosf(p.axis_rad);
+        if libm::fabsf(cb) < libm::cosf(MAX_AXIS_ANGLE_RAD) {
+            g.why = Some(Withheld::NotInLine);
+            g.hint = Hint::TurnInLine;
+            return g;
+        }
+        // Tolerance in depths where the depth is not yet known: 0.1 (the tighter of the two).
+        let tol_u = match h_hint {
+            Some(h) => over_tolerance_m(h) / h,
+            None => 0.1,
+        };
+        let o = p.offsets;
+        // Along: the sonde is ahead when −u·cos β > 0 (u: receiver past the sonde along m̂).
+        let along_u = -o.u * cb.signum();
+        g.along = if libm::fabsf(o.u) + 2.0 * o.sigma_u < tol_u {
+            Along::Over
+        } else if along_u - 2.0 * o.sigma_u > 0.0 {
+            Along::Ahead
+        } else if along_u + 2.0 * o.sigma_u < 0.0 {
+            Along::Behind
+        } else {
+            Along::Unsure
+        };
+        // Across: the sonde's left offset is −η·cos β (plus −u·sin β, small when in line).
+        let sb = libm::sinf(p.axis_rad);
+        let left_u = -o.eta * cb - o.u * sb;
+        let sigma_left = libm::hypotf(o.sigma_eta * cb, o.sigma_u * sb);
+        g.across = if !sigma_left.is_finite() {
+            Across::Unsure
+        } else if libm::fabsf(left_u) + 2.0 * sigma_left < tol_u {
+            Across::Centred
+        } else if left_u - 2.0 * sigma_left > 0.0 {
+            Across::Left
+        } else if left_u + 2.0 * sigma_left < 0.0 {
+            Across::Right
+        } else {
+            Across::Unsure
+        };
+        if clipped && g.along == Along::Over {
+            g.along = Along::Unsure;
+            g.why = Some(Withheld::Clipped);
+        }
+        g.hint = match (g.along, g.across) {
+            (Along::Ahead, _) => Hint::WalkAhead,
+            (Along::Behind, _) => Hint::WalkBack,
+            (Along::Over, Across::Centred) => Hint::HoldStill,
+            (Along::Over, Across::Left) => Hint::StepLeft,
+            (Along::Over, Across::Right) => Hint::StepRight,
+            (Along::Over, Across::Unsure) => Hint::SweepAlong,
+            (Along::Unsure, _) => Hint::WalkAlong,
+        };
+        if g.why.is_none() && (g.along == Along::Unsure || g.across == Across::Unsure) {
+            g.why = Some(if g.along == Along::Unsure { Withheld::NotOver } else { Withheld::LateralUnknown });
+        }
+        g
+    }
+
+    /// Step 7a: may a depth from the field at the head be shown here? The offsets if so.
+    fn depth_gate(
+        &self,
+        signal: Signal,
+        settling: bool,
+        clipped: bool,
+        distorted: bool,
+        placement: &Option<Placement>,
+        g: &Guidance,
+    ) -> Result<Offsets, Withheld> {
+        match signal {
+            Signal::Absent => return Err(Withheld::NoSignal),
+            Signal::Weak => return Err(Withheld::LowSnr),
+            Signal::Good => {}
+        }
+        if settling {
+            return Err(Withheld::Settling);
+        }
+        if clipped {
+            return Err(Withheld::Clipped);
+        }
+        if distorted {
+            return Err(Withheld::Distorted);
+        }
+        let Some(p) = placement else { return Err(Withheld::NeedsMotion) };
+        if !p.inside {
+            return Err(Withheld::SecondaryPeak);
+        }
+        if g.why == Some(Withheld::NotInLine) {
+            return Err(Withheld::NotInLine);
+        }
+        if g.along != Along::Over {
+            return Err(Withheld::NotOver);
+        }
+        if g.across != Across::Centred {
+            return Err(Withheld::LateralUnknown);
+        }
+        Ok(p.offsets)
+    }
+
+    /// Step 7b: the gradient depth.
+    fn gradient(&self, field: &FieldVector<N>, at: Offsets) -> DepthEstimate {
+        let s = &self.settings;
+        let head = &self.head;
+        let (Some(sp), Some(up0)) = (head.spacing_m(), head.roles.upper[0]) else { return Err(Withheld::NoCoils) };
+        let lo = head.roles.lower;
+        let triads = lo.iter().chain(head.roles.upper.iter()).all(|r| r.is_some());
+        let sig = |i: Option<u8>| i.map(|k| field.sigma[k as usize]).unwrap_or(f32::INFINITY);
+        let (of, a_lo, a_up, s_lo, s_up) = if triads {
+            let up = libm::sqrtf(field.upper[0] * field.upper[0] + field.upper[1] * field.upper[1] + field.upper[2] * field.upper[2]);
+            (RatioOf::Total, field.total, up, sig(lo[0]), sig(Some(up0)))
+        } else {
+            (RatioOf::Along, field.lower[0], field.upper[0], sig(lo[0]), sig(Some(up0)))
+        };
+        // First-order soil loss e^{−d/δ} on each path: the ratio gains e^{s/δ}, divided out.
+        let soil = if s.skin_depth_m.is_finite() { libm::expf(sp / s.skin_depth_m) } else { 1.0 };
+        let d = gradient_depth(
+            s.model,
+            of,
+            CoilPair { low: a_lo, up: a_up * soil, sigma_low: s_lo, sigma_up: s_up * soil, spacing_m: sp },
+            s.gain_tolerance,
+            at,
+        )?;
+        self.precise(d)
+    }
+
+    /// Step 7c: the known-moment depth.
+    fn known_moment(&self, field: &FieldVector<N>, sigma: f32, at: Offsets) -> DepthEstimate {
+        let s = &self.settings;
+        let c = &s.calibration;
+        // The coils' gain tolerance enters the strength as well.
+        let sb = libm::hypotf(sigma, s.gain_tolerance * field.total);
+        let d = known_moment_depth(s.model, field.total, sb, c.strength, c.strength_sigma, at)?;
+        self.precise(d)
+    }
+
+    /// Step 7d: the fit's depth, gated like the others but valid off the peak.
+    fn fit_depth(&self, fix: Option<&Fix>, signal: Signal, settling: bool, clipped: bool, distorted: bool) -> DepthEstimate {
+        let Some(f) = fix else {
+            let triads = self.head.roles.lower.iter().chain(self.head.roles.upper.iter()).all(|r| r.is_some());
+            return Err(if !triads || N < 6 {
+                Withheld::NoCoils
+            } else if signal == Signal::Absent {
+                Withheld::NoSignal
+            } else if settling {
+                Withheld::Settling
+            } else {
+                Withheld::LowSnr
+            });
+        };
+        if clipped {
+            return Err(Withheld::Clipped);
+        }
+        if distorted {
+            return Err(Withheld::Distorted);
+        }
+        if !f.converged {
+            return Err(Withheld::NoFit);
+        }
+        let h = f.depth_m.value;
+        if !f.depth_m.sigma.is_finite() || !f.left_m.sigma.is_finite() {
+            return Err(Withheld::IllConditioned);
+        }
+        // Beyond the nulls the fit can land on the wrong side; require the sonde within them.
+        let r = libm::hypotf(f.ahead_m.value, f.left_m.value);
+        if r > 0.7 * h {
+            return Err(Withheld::NotOver);
+        }
+        // The coils' gain tolerance moves the depth as it moves a gradient ratio:
+        // σ_h/h = (h+s)/(3s)·√2·tol (two triads, each ±tol).
+        let sp = self.head.spacing_m().unwrap_or(0.4).max(1e-3);
+        let gain = h * (h + sp) / (3.0 * sp) * core::f32::consts::SQRT_2 * self.settings.gain_tolerance;
+        let d = crate::locate::depth::depth(h, libm::hypotf(f.depth_m.sigma, gain))?;
+        self.precise(d)
+    }
+
+    fn precise(&self, d: Depth) -> DepthEstimate {
+        if d.sigma_m > self.settings.max_relative_sigma * d.depth_m {
+            Err(Withheld::Uncertain)
+        } else {
+            Ok(d)
+        }
+    }
+}
+
+/// Largest angle between the handle and the sonde axis at which along-axis
+/// guidance is given (beyond it: turn in line), rad (40°).
+pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
+
+/// Where the receiver is relative to the point over the sonde.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct Placement {
+    ahead_m: Option<Distance>,
+    left_m: Option<Distance>,
+    inside: bool,
+    axis_rad: f32,
+    offsets: Offsets,
+}
