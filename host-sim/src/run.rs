@@ -96,9 +96,28 @@ pub struct Row {
     pub freq_offset_sigma_hz: f64,
     /// Flags.
     pub flags: Vec<&'static str>,
+    /// The locator's along/across track: placed?, u, σu, axis angle (deg), η, ση.
+    pub track: TrackRow,
     /// Truth (simulation only).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub truth: Option<TruthRow>,
+}
+
+/// The locator's track, as printed.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq)]
+pub struct TrackRow {
+    /// The side bit is known.
+    pub placed: bool,
+    /// Along offset past the sonde over depth (when placed).
+    pub u: f64,
+    /// Its σ.
+    pub sigma_u: f64,
+    /// Sonde axis from the handle, degrees.
+    pub axis_deg: f64,
+    /// Lateral offset over depth.
+    pub eta: f64,
+    /// Its σ.
+    pub sigma_eta: f64,
 }
 
 /// Truth beside a readout.
@@ -195,6 +214,14 @@ pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>) -> 
         freq_offset_hz: r.freq_offset_hz as f64,
         freq_offset_sigma_hz: r.freq_offset_sigma_hz as f64,
         flags: r.flags.names().collect(),
+        track: TrackRow {
+            placed: r.track.placed,
+            u: r.track.u as f64,
+            sigma_u: r.track.sigma_u as f64,
+            axis_deg: (r.track.axis_rad as f64).to_degrees(),
+            eta: r.track.eta as f64,
+            sigma_eta: if r.track.sigma_eta.is_finite() { r.track.sigma_eta as f64 } else { 1e9 },
+        },
         truth,
     }
 }

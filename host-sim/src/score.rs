@@ -128,11 +128,13 @@ pub fn score(rows: &[Row], axis: [f64; 3]) -> Score {
         let in_line = cos_axis >= SCORED_AXIS_ANGLE_DEG.to_radians().cos();
         let tol = over_tolerance_m(h);
         let ahead = t.ahead_shown_m;
-        let dist_shown = (t.ahead_shown_m * t.ahead_shown_m + t.left_shown_m * t.left_shown_m).sqrt();
+        // "Over" is a claim about the readout's data (a group delay before it is shown; the
+        // receiver claims it only when still along the axis): checked at the data time.
+        let dist = (t.ahead_m * t.ahead_m + t.left_m * t.left_m).sqrt();
         if r.over {
             s.over_shown += 1;
-            s.over_worst_m = s.over_worst_m.max(dist_shown);
-            if dist_shown > tol {
+            s.over_worst_m = s.over_worst_m.max(dist);
+            if dist > tol {
                 s.over_too_far += 1;
             }
         }

@@ -335,7 +335,7 @@ impl<const N: usize> Locator<N> {
         } else if settling {
             Guidance::unsure(Withheld::Settling, Hint::Wait)
         } else {
-            self.guidance(&offsets, h_hint, clipped)
+            self.guidance(&offsets, h_hint, clipped, self.state)
         };
         guidance.vertical_ratio = field.vertical_ratio();
         // 7. Depths.
@@ -415,6 +415,7 @@ impl<const N: usize> Locator<N> {
                     left_m: Some(Distance { value_m: f.left_m.value, sigma_m: f.left_m.sigma }).filter(|d| d.sigma_m.is_finite()),
                     inside: (f.ahead_m.value * f.ahead_m.value) < 0.5 * h * h,
                     axis_rad: f.yaw_rad.value,
+                    u_rate_per_s: track.u_rate_per_s,
                     offsets: Offsets {
                         u: -(f.ahead_m.value * libm::cosf(f.yaw_rad.value) + f.left_m.value * libm::sinf(f.yaw_rad.value)) / h,
                         sigma_u: f.ahead_m.sigma / h,
@@ -442,13 +443,21 @@ impl<const N: usize> Locator<N> {
             }
             None => (None, None),
         };
-        Some(Placement { ahead_m: ahead, left_m: left, inside: track.inside, axis_rad: track.axis_rad, offsets: at })
+        Some(Placement {
+            ahead_m: ahead,
+            left_m: left,
+            inside: track.inside,
+            axis_rad: track.axis_rad,
+            offsets: at,
+            u_rate_per_s: track.u_rate_per_s,
+        })
     }
 
     /// Step 6b: guidance from the placement.
-    fn guidance(&self, placement: &Option<Placement>, h_hint: Option<f32>, clipped: bool) -> Guidance {
+    fn guidance(&self, placement: &Option<Placement>, h_hint: Option<f32>, clipped: bool, state: Orientation) -> Guidance {
         let Some(p) = placement else {
-            return Guidance::unsure(Withheld::NeedsMotion, Hint::WalkAlong);
+            let hint = if state == Orientation::Crossed { Hint::TurnInLine } else { Hint::WalkAlong };
+            return Guidance::unsure(Withheld::NeedsMotion, hint);
         };
         let mut g = Guidance {
             along: Along::Unsure,
@@ -460,7 +469,8 @@ impl<const N: usize> Locator<N> {
             vertical_ratio: 0.0,
         };
         let cb = libm::cosf(p.axis_rad);
-        if libm::fabsf(cb) < libm::cosf(MAX_AXIS_ANGLE_RAD) {
+        // Crossed (the field across the handle) or the axis far from the handle: turn first.
+        if state == Orientation::Crossed || libm::fabsf(cb) < libm::cosf(MAX_AXIS_ANGLE_RAD) {
             g.why = Some(Withheld::NotInLine);
             g.hint = Hint::TurnInLine;
             return g;
@@ -473,7 +483,11 @@ impl<const N: usize> Locator<N> {
         let o = p.offsets;
         // Along: the sonde is ahead when −u·cos β > 0 (u: receiver past the sonde along m̂).
         let along_u = -o.u * cb.signum();
-        g.along = if libm::fabsf(o.u) + 2.0 * o.sigma_u < tol_u {
+        // "Over" only when the receiver is (nearly) still along the axis: a readout describes
+        // the field a group delay before it is shown, and a person walking through the peak
+        // is better told "behind" the moment they pass it than "over" a step late.
+        let still = libm::fabsf(p.u_rate_per_s) < MAX_OVER_SPEED_DEPTHS_PER_S;
+        g.along = if still && libm::fabsf(o.u) + 2.0 * o.sigma_u < tol_u {
             Along::Over
         } else if along_u - 2.0 * o.sigma_u > 0.0 {
             Along::Ahead
@@ -645,6 +659,9 @@ impl<const N: usize> Locator<N> {
 /// guidance is given (beyond it: turn in line), rad (40°).
 pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
 
+/// Fastest along-axis motion at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
+pub const MAX_OVER_SPEED_DEPTHS_PER_S: f32 = 0.1;
+
 /// Where the receiver is relative to the point over the sonde.
 #[derive(Clone, Copy, Debug, PartialEq)]
 struct Placement {
@@ -653,4 +670,6 @@ struct Placement {
     inside: bool,
     axis_rad: f32,
     offsets: Offsets,
+    /// Rate of the along offset, depths per second (from the track).
+    u_rate_per_s: f32,
 }

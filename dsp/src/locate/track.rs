@@ -110,11 +110,33 @@ impl TrackState {
     };
 }
 
+/// A passage of the field through the vertical (the along-axis part small).
+#[derive(Clone, Copy, Debug)]
+struct Passage {
+    /// Highest log-strength in the second before it.
+    l_before: f32,
+    /// Lowest log-strength during it.
+    l_min: f32,
+    /// Highest log-strength since it ended.
+    l_after: f32,
+    /// The tracked angle Φ when it began.
+    phi_start: f32,
+    /// When it ended (None: still in it), s.
+    ended_s: Option<f32>,
+}
+
+/// How long after a passage the strength is watched for its recovery, s.
+pub const PASSAGE_WATCH_S: f32 = 0.6;
+
 #[derive(Clone, Copy, Debug, Default)]
 struct Sample {
     t: f32,
     phi: f32,
     l: f32,
+    /// Bearing of the horizontal field from the handle, unwrapped, rad.
+    bearing: f32,
+    /// The horizontal field is well above the noise (its bearing means something).
+    reliable: bool,
 }
 
 /// The tracker.
@@ -124,6 +146,8 @@ pub struct Track {
     last_t: f32,
     last: V3,
     last_psi: f32,
+    // The next readout's ψ starts the unwrap afresh (after a reversal) rather than stepping.
+    have_last_psi: bool,
     phi: f32,
     evidence: f32,
     hist: Deque<Sample, WINDOW>,
@@ -138,16 +162,19 @@ pub struct Track {
     // ln of the strength scale K/h³ (the field magnitude over its shape f(u, η)),
     // and its variance, once learnt where u and η are well known.
     ln_s0: Option<(f32, f32)>,
-    // A passage of the field through the vertical (along-axis part small): log-strength
-    // when it began and its lowest value, to tell a null from a reversal of the handle.
-    passage: Option<(f32, f32)>,
+    // A passage of the field through the vertical, to tell a null from a reversal of the handle.
+    passage: Option<Passage>,
     state: TrackState,
 }
 
 /// Evidence (in units of a decisive readout) needed before the side bit is taken as known.
 pub const DECIDE: f32 = 4.0;
 /// Largest evidence kept (so a later, consistent change can still overturn it).
-pub const MAX_EVIDENCE: f32 = 12.0;
+pub const MAX_EVIDENCE: f32 = 6.0;
+/// Largest spread of the field's bearing over the evidence window, rad (20°).
+pub const MAX_BEARING_SPREAD_RAD: f32 = 0.35;
+/// Largest bearing of the field from the handle while evidence is taken, rad (40°).
+pub const MAX_EVIDENCE_BEARING_RAD: f32 = 0.7;
 /// How much a held heading wanders while walking, rad per √s (one sigma).
 pub const HEADING_WANDER_PER_S: f32 = 0.05;
 /// How far a person walking "along the handle" drifts sideways, per unit walked (one sigma).
@@ -189,6 +216,23 @@ fn wrap_turn(x: f32) -> f32 {
     }
 }
 
+/// The along offset u (receiver past the sonde, in depths) where the dip angle on its
+/// full turn is Φ, and whether that is inside the nulls: the root of
+/// `2u²·sin Φ − 3u·cos Φ − sin Φ = 0` on the branch `cos Φ < 0` (inside) or `> 0`.
+pub fn u_of_phi(phi: f32) -> (f32, bool) {
+    let (sn, cs) = (libm::sinf(phi), libm::cosf(phi));
+    let inside = cs < 0.0;
+    let root = libm::sqrtf(9.0 * cs * cs + 8.0 * sn * sn);
+    let u = if inside {
+        2.0 * sn / (root + 3.0 * libm::fabsf(cs))
+    } else if libm::fabsf(sn) > 1e-6 {
+        (3.0 * cs + root) / (4.0 * sn)
+    } else {
+        1e6 * if sn >= 0.0 { 1.0 } else { -1.0 }
+    };
+    (u, inside)
+}
+
 /// Slope of `y` on `t` and its standard error (least squares).
 fn slope<I: Iterator<Item = (f32, f32)>>(t: impl Fn() -> I) -> Option<(f32, f32, f32)> {
     let mut n = 0.0f32;
@@ -225,6 +269,7 @@ impl Track {
             last_t: 0.0,
             last: [0.0; 3],
             last_psi: 0.0,
+            have_last_psi: false,
             phi: 0.0,
             evidence: 0.0,
             hist: Deque::new(),
@@ -281,7 +326,10 @@ impl Track {
         if sigma_psi > MAX_SIGMA_PSI {
             return self.gap(dt, x.t_s);
         }
-        if self.have {
+        if self.have && !self.have_last_psi {
+            // After a reversal: Φ was restored; continue from the nearest branch of ψ.
+            self.phi += wrap_half(psi - self.phi);
+        } else if self.have {
             let step = wrap_half(psi - self.last_psi);
             self.phi += step;
             // Walking along, the lateral offset drifts by a little of the distance walked:
@@ -297,6 +345,7 @@ impl Track {
             self.phi = psi;
         }
         self.have = true;
+        self.have_last_psi = true;
         self.gap_s = 0.0;
         self.last_psi = psi;
         self.last = x.lower;
@@ -304,7 +353,12 @@ impl Track {
         if self.hist.is_full() {
             let _ = self.hist.pop_front();
         }
-        let _ = self.hist.push_back(Sample { t: x.t_s, phi: self.phi, l: libm::logf(mag) });
+        let bearing = match self.hist.back() {
+            Some(prev) => prev.bearing + wrap_half(libm::atan2f(b, a) - prev.bearing),
+            None => libm::atan2f(b, a),
+        };
+        let reliable = libm::hypotf(a, b) > 5.0 * x.sigma;
+        let _ = self.hist.push_back(Sample { t: x.t_s, phi: self.phi, l: libm::logf(mag), bearing, reliable });
         self.evidence_from_motion(x);
         self.estimate(x, sigma_psi, moving)
     }
@@ -348,22 +402,39 @@ impl Track {
         let s = 3.0 * x.sigma;
         // A reversal of the handle: the horizontal field shrinks through zero and
         // grows back the other way while the vertical part holds, so the field
-        // passes through the vertical with a dip of its strength. Walking through
-        // a null also passes the vertical, but there the strength keeps falling
-        // (or rising) through the passage: no dip.
+        // passes through the vertical with a dip of its strength, which recovers
+        // within the detector's smoothing. Walking through a null also passes the
+        // vertical, but there the strength keeps falling (or rising) through the
+        // passage (|B| is monotone along the axis): no dip. A reversal keeps the
+        // receiver where it was, so the tracked angle goes back to its value
+        // before the passage and the axis turns by π relative to the handle.
         let vertical = libm::fabsf(a_ax) < 0.3 * libm::fabsf(c) && libm::fabsf(c) > 2.0 * s;
-        match (self.passage, vertical) {
-            (None, true) => self.passage = Some((l, l)),
-            (Some((l0, lmin)), true) => self.passage = Some((l0, lmin.min(l))),
-            (Some((l0, lmin)), false) => {
-                self.passage = None;
-                let dip = 0.1 + 3.0 * x.sigma / libm::expf(lmin);
-                if l0 - lmin > dip && l - lmin > dip {
+        let t = x.t_s;
+        match self.passage.as_mut() {
+            None if vertical => {
+                let l_before = self.hist.iter().filter(|h| h.t >= t - 1.0).map(|h| h.l).fold(l, f32::max);
+                self.passage = Some(Passage { l_before, l_min: l, l_after: f32::NEG_INFINITY, phi_start: self.phi, ended_s: None });
+            }
+            None => {}
+            Some(p) => {
+                if vertical && p.ended_s.is_none() {
+                    p.l_min = p.l_min.min(l);
+                } else {
+                    p.ended_s.get_or_insert(t);
+                    p.l_after = p.l_after.max(l);
+                }
+                let dip = 0.1 + 3.0 * x.sigma / libm::expf(p.l_min);
+                let p = *p;
+                if p.l_before - p.l_min > dip && p.l_after - p.l_min > dip {
+                    self.passage = None;
                     self.beta_ref += core::f32::consts::PI;
+                    self.phi = p.phi_start;
+                    self.have_last_psi = false;
                     self.hist.clear();
+                } else if p.ended_s.map(|e| t - e > PASSAGE_WATCH_S).unwrap_or(false) {
+                    self.passage = None;
                 }
             }
-            (None, false) => {}
         }
         if !self.have || !moving {
             return;
@@ -458,15 +529,37 @@ impl Track {
         if !(libm::fabsf(z_phi) > 3.0 && libm::fabsf(z_l) > 3.0 && dphi > 0.05 && dl > 0.02) {
             return;
         }
-        let ahead = sphi * sl < 0.0;
-        let s = libm::sinf(self.phi);
-        if libm::fabsf(s) < 0.2 {
+        // The procedure: walking along the axis with the heading held, so the horizontal field
+        // keeps its bearing (within the wobble of a hand and the swing near a null).
+        // and the handle roughly along the field where its bearing can be read (walking along
+        // the handle is then walking along the axis).
+        let (bmin, bmax) =
+            recent().filter(|s| s.reliable).fold((f32::INFINITY, f32::NEG_INFINITY), |(lo, hi), s| (lo.min(s.bearing), hi.max(s.bearing)));
+        if bmax - bmin > MAX_BEARING_SPREAD_RAD
+            || recent().any(|s| s.reliable && libm::fabsf(wrap_half(s.bearing)) > MAX_EVIDENCE_BEARING_RAD)
+        {
             return;
         }
-        // Side bit 0 (Φ_true = tracked Φ) predicts "ahead" exactly when sin Φ < 0.
-        let agrees = (s < 0.0) == ahead;
-        let w = (libm::fabsf(z_phi).min(libm::fabsf(z_l)) / 6.0).min(0.5) * (libm::fabsf(s) / 0.5).min(1.0);
-        self.evidence += if agrees { w } else { -w };
+        // Along the axis both change with u: dL/dΦ = (dL/du)/(dΦ/du) = 4u³/(2u² + 1), from
+        // |B| ∝ √(4u²+1)/(u²+1)² and dΦ/du above. Each side bit places the window's mean Φ at
+        // its own u, predicting its own ratio (opposite signs for the two); the observed ratio
+        // must match one and not the other. Motion that is not along the axis (a circle round
+        // the sonde, a turn) matches neither and gives no evidence.
+        let phi_mean = recent().map(|s| s.phi).sum::<f32>() / count;
+        let r_obs = sl / sphi;
+        let sigma_r = libm::fabsf(r_obs) * libm::hypotf(se_l / sl, se_phi / sphi) * infl;
+        let ratio = |u: f32| 4.0 * u * u * u / (2.0 * u * u + 1.0);
+        let fits = |phi: f32| {
+            let (u, _) = u_of_phi(phi);
+            let g = ratio(u);
+            libm::fabsf(r_obs - g) < (0.5 * libm::fabsf(g)).max(0.15) + 2.0 * sigma_r
+        };
+        let (f0, f1) = (fits(phi_mean), fits(phi_mean + core::f32::consts::PI));
+        if f0 == f1 {
+            return;
+        }
+        let w = (libm::fabsf(z_phi).min(libm::fabsf(z_l)) / 6.0).min(0.5);
+        self.evidence += if f0 { w } else { -w };
         self.evidence = self.evidence.clamp(-MAX_EVIDENCE, MAX_EVIDENCE);
     }
 
@@ -495,7 +588,7 @@ impl Track {
             }
             return;
         };
-        let sigma_e = libm::sqrtf(sigma_l * sigma_l + var_s0) + 0.005;
+        let sigma_e = libm::sqrtf(sigma_l * sigma_l + var_s0) + 0.002;
         if e_model - ln_s0 > -3.0 * sigma_e {
             if known {
                 // Refine the scale (an average over a few correlation times).
@@ -537,16 +630,7 @@ impl Track {
         let mut st = TrackState { placed, sigma_phi_rad: sigma_psi, axis_rad: beta, eta, sigma_eta, moving, ..TrackState::EMPTY };
         if placed {
             let phi = wrap_turn(self.phi + if self.evidence >= 0.0 { 0.0 } else { core::f32::consts::PI });
-            let (sn, cs) = (libm::sinf(phi), libm::cosf(phi));
-            let inside = cs < 0.0;
-            let root = libm::sqrtf(9.0 * cs * cs + 8.0 * sn * sn);
-            let u = if inside {
-                2.0 * sn / (root + 3.0 * libm::fabsf(cs))
-            } else if libm::fabsf(sn) > 1e-6 {
-                (3.0 * cs + root) / (4.0 * sn)
-            } else {
-                1e6 * if sn >= 0.0 { 1.0 } else { -1.0 }
-            };
+            let (u, inside) = u_of_phi(phi);
             // dΦ/du = −3(2u²+1)/((4u²+1)(u²+1)).
             let dphi_du = -3.0 * (2.0 * u * u + 1.0) / ((4.0 * u * u + 1.0) * (u * u + 1.0));
             let u_rate = rate / dphi_du;
