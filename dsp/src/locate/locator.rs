@@ -295,7 +295,10 @@ impl<const N: usize> Locator<N> {
         let field = self.field(phasors, noise_sigma);
         let lo = self.head.roles.lower;
         let sig_lo = lo.iter().flatten().map(|&i| field.sigma[i as usize]).fold(0.0f32, f32::max).max(1e-30);
-        let snr = (field.total / sig_lo).clamp(0.0, 1e15);
+        // The lower field whitened by each coil's noise: its norm is the detection statistic
+        // (with noise alone, a χ with as many degrees of freedom as noise components).
+        let white = |i: u8| field.signed[i as usize] / field.sigma[i as usize].max(1e-30);
+        let snr = libm::sqrtf(lo.iter().flatten().map(|&i| white(i) * white(i)).sum::<f32>()).clamp(0.0, 1e15);
         let snr_db = 20.0 * libm::log10f(snr.max(1e-6));
         // A detection with a non-finite phasor or no noise estimate on the lower coils is not
         // a usable measurement (the detector flags the cause); nothing is located from it.
@@ -314,7 +317,7 @@ impl<const N: usize> Locator<N> {
             self.track.update(&TrackInput {
                 t_s: timing.t_s as f32,
                 lower: field.lower,
-                sigma: sig_lo,
+                sigma: [0, 1, 2].map(|k| lo[k].map(|i| field.sigma[i as usize]).unwrap_or(sig_lo).max(1e-30)),
                 noise_corr_s: timing.noise_corr_s,
                 group_delay_s: timing.group_delay_s,
             })

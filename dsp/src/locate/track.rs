@@ -58,8 +58,8 @@ pub struct TrackInput {
     pub t_s: f32,
     /// Lower triad (along, across, vertical), sign-normalised so along ≥ 0.
     pub lower: V3,
-    /// Noise σ of each lower component (largest of the three).
-    pub sigma: f32,
+    /// Noise σ of each lower component (along, across, vertical).
+    pub sigma: V3,
     /// Seconds over which the noise of successive readouts is correlated (≈ 1/bandwidth).
     pub noise_corr_s: f32,
     /// Delay from the data's centre to the readout, s.
@@ -125,6 +125,12 @@ struct Passage {
     ended_s: Option<f32>,
 }
 
+/// Half-width of the zone near the point over the sonde where the strength check runs, in depths.
+pub const ZONE_U: f32 = 0.3;
+
+/// Consecutive outliers of the across regression after which it starts afresh.
+pub const MAX_OUTLIERS: u8 = 5;
+
 /// How long after a passage the strength is watched for its recovery, s.
 pub const PASSAGE_WATCH_S: f32 = 0.6;
 
@@ -158,10 +164,10 @@ pub struct Track {
     q: f32,
     cov: [[f32; 2]; 2],
     have_axis: bool,
+    outliers: u8,
     gap_s: f32,
-    // ln of the strength scale K/h³ (the field magnitude over its shape f(u, η)),
-    // and its variance, once learnt where u and η are well known.
-    ln_s0: Option<(f32, f32)>,
+    // When the receiver entered the zone near the point over the sonde (|u| < ZONE_U).
+    zone_start_s: Option<f32>,
     // A passage of the field through the vertical, to tell a null from a reversal of the handle.
     passage: Option<Passage>,
     state: TrackState,
@@ -278,9 +284,10 @@ impl Track {
             q: 0.0,
             cov: [[0.0; 2]; 2],
             have_axis: false,
+            outliers: 0,
             gap_s: 0.0,
             passage: None,
-            ln_s0: None,
+            zone_start_s: None,
             state: TrackState::EMPTY,
         }
     }
@@ -300,7 +307,10 @@ impl Track {
         let [a, b, c] = x.lower;
         let mag = libm::sqrtf(a * a + b * b + c * c);
         let dt = if self.have { (x.t_s - self.last_t).max(0.0) } else { 0.0 };
-        if !(mag > 0.0) || !mag.is_finite() || !(x.sigma >= 0.0) {
+        let [sa, sb, sc] = x.sigma;
+        // The noise of the whole vector (its magnitude, or any one direction at most).
+        let sn = libm::sqrtf(sa * sa + sb * sb + sc * sc);
+        if !(mag > 0.0) || !mag.is_finite() || !(sn >= 0.0) || !sn.is_finite() {
             return self.gap(dt, x.t_s);
         }
         // Motion: the field changed by more than its noise since the last readout.
@@ -310,7 +320,7 @@ impl Track {
             // Either sign of the stored reading (the normalisation may flip it).
             let e = [a + self.last[0], b + self.last[1], c + self.last[2]];
             let e2 = e[0] * e[0] + e[1] * e[1] + e[2] * e[2];
-            libm::sqrtf(d2.min(e2)) > 3.0 * x.sigma + 0.004 * mag
+            libm::sqrtf(d2.min(e2)) > 3.0 * sn + 0.004 * mag
         } else {
             false
         };
@@ -322,7 +332,10 @@ impl Track {
         let beta = self.axis();
         let a_ax = a * libm::cosf(beta) + b * libm::sinf(beta);
         let psi = libm::atan2f(c, a_ax);
-        let sigma_psi = x.sigma / libm::hypotf(a_ax, c).max(1e-30);
+        // σ of ψ = atan2(c, a_ax): √(σ_c²·a_ax² + σ_a²·c²)/(a_ax² + c²), σ_a of the along-axis part.
+        let s_ax = libm::hypotf(sa * libm::cosf(beta), sb * libm::sinf(beta));
+        let r2 = (a_ax * a_ax + c * c).max(1e-30);
+        let sigma_psi = libm::sqrtf(sc * sc * a_ax * a_ax + s_ax * s_ax * c * c) / r2;
         if sigma_psi > MAX_SIGMA_PSI {
             return self.gap(dt, x.t_s);
         }
@@ -357,7 +370,7 @@ impl Track {
             Some(prev) => prev.bearing + wrap_half(libm::atan2f(b, a) - prev.bearing),
             None => libm::atan2f(b, a),
         };
-        let reliable = libm::hypotf(a, b) > 5.0 * x.sigma;
+        let reliable = libm::hypotf(a, b) > 5.0 * libm::hypotf(sa, sb);
         let _ = self.hist.push_back(Sample { t: x.t_s, phi: self.phi, l: libm::logf(mag), bearing, reliable });
         self.evidence_from_motion(x);
         self.estimate(x, sigma_psi, moving)
@@ -399,7 +412,8 @@ impl Track {
 
     fn rotation_or_reversal(&mut self, x: &TrackInput, moving: bool, l: f32, a_ax: f32) {
         let [a, b, c] = x.lower;
-        let s = 3.0 * x.sigma;
+        let [sa, sb, sc] = x.sigma;
+        let s = 3.0 * libm::sqrtf(sa * sa + sb * sb + sc * sc);
         // A reversal of the handle: the horizontal field shrinks through zero and
         // grows back the other way while the vertical part holds, so the field
         // passes through the vertical with a dip of its strength, which recovers
@@ -423,7 +437,7 @@ impl Track {
                     p.ended_s.get_or_insert(t);
                     p.l_after = p.l_after.max(l);
                 }
-                let dip = 0.1 + 3.0 * x.sigma / libm::expf(p.l_min);
+                let dip = 0.1 + s / libm::expf(p.l_min);
                 let p = *p;
                 if p.l_before - p.l_min > dip && p.l_after - p.l_min > dip {
                     self.passage = None;
@@ -473,14 +487,19 @@ impl Track {
         // Into the frame turned by beta_ref, on direction cosines (so strength does not weight).
         let (sb, cb) = (libm::sinf(self.beta_ref), libm::cosf(self.beta_ref));
         let (a, b, c) = ((a * cb + b * sb) / mag, (-a * sb + b * cb) / mag, c / mag);
-        let s = x.sigma / mag;
+        let [sa, sb, sc] = x.sigma;
+        // Noise of the residual b − p·a − q·c, on direction cosines.
+        let s = libm::sqrtf(sb * sb + self.p * self.p * sa * sa + self.q * self.q * sc * sc) / mag;
         // Measurement b = p·a + q·c with noise s²(1 + p² + q²) (noise on all three readings).
         // Readouts within the noise correlation time are not independent: weight them down.
         let corr = (x.noise_corr_s / dt.max(1e-3)).max(1.0);
         // A floor on the noise (1e-4 of the field: beyond any coil's precision) keeps one
         // over-confident readout from freezing the estimate.
         let s = s.max(1e-4);
-        let r = s * s * (1.0 + self.p * self.p + self.q * self.q) * corr;
+        let r = s * s * corr;
+        // The lateral part is learnt only from a vertical reading well above its noise (over
+        // the plane across the sonde, where it vanishes, a noisy c would random-walk η).
+        let c = if libm::fabsf(c) > 3.0 * sc / mag { c } else { 0.0 };
         let hvec = [a, c];
         let ph = [self.cov[0][0] * hvec[0] + self.cov[0][1] * hvec[1], self.cov[1][0] * hvec[0] + self.cov[1][1] * hvec[1]];
         let sden = hvec[0] * ph[0] + hvec[1] * ph[1] + r;
@@ -489,10 +508,23 @@ impl Track {
         }
         let k = [ph[0] / sden, ph[1] / sden];
         let innov = b - (self.p * a + self.q * c);
-        // An outlier (more than 5σ from the prediction) is not a measurement of this geometry.
+        // An outlier (more than 5σ from the prediction) is not a measurement of this geometry;
+        // a run of them means the geometry has changed (a turn, a walk that is not along the
+        // axis, another place): start the regression afresh from the field's bearing.
         if innov * innov > 25.0 * sden {
+            self.outliers = self.outliers.saturating_add(1);
+            if self.outliers >= MAX_OUTLIERS {
+                // The axis angle restarts from the field's bearing, which cannot tell β from
+                // β + π: what the side bit meant goes with it.
+                self.have_axis = false;
+                self.outliers = 0;
+                self.zone_start_s = None;
+                self.evidence = 0.0;
+                self.hist.clear();
+            }
             return;
         }
+        self.outliers = 0;
         self.p += k[0] * innov;
         self.q += k[1] * innov;
         self.p = self.p.clamp(-5.0, 5.0);
@@ -565,57 +597,49 @@ impl Track {
 
     /// The strength check on the lateral offset. Over the sonde a sideways step
     /// changes neither the field's direction nor its along part, only its
-    /// magnitude, `|B| = (K/h³)·f(u, η)`, `f(0, η) = (1 + η²)^{−3/2}`. Once the
-    /// scale K/h³ is learnt (where u and η are known), a magnitude well below
-    /// the one expected at the tracked (u, η) means the receiver has moved
-    /// across: the lateral estimate becomes 0 ± the offset that explains it.
-    fn monitor(&mut self, x: &TrackInput, u: f32, sigma_u: f32) {
+    /// magnitude: `|B| ∝ (1 + η²)^{−3/2}` across, `∝ 1 − 3u⁴` along (flat along
+    /// the axis to fourth order), so near the point over the sonde the strength
+    /// follows the dip angle Φ closely while the receiver moves along the axis
+    /// (nearly linearly over the zone |u| < 0.3, also for a pitched sonde, whose
+    /// peak is lopsided), and drops at a constant Φ when it moves across.
+    /// Within the zone ln|B| is fitted as a straight line in Φ over the readouts
+    /// so far; a readout well below the line means the receiver has moved
+    /// across: the lateral estimate becomes 0 ± the offset that explains the drop
+    /// (`1.5·η²`).
+    fn monitor(&mut self, x: &TrackInput, u: f32) {
+        let t = x.t_s;
+        if libm::fabsf(u) > ZONE_U {
+            self.zone_start_s = None;
+            return;
+        }
+        let Some(t0) = self.zone_start_s else {
+            self.zone_start_s = Some(t);
+            return;
+        };
+        let Some(now) = self.hist.back().copied() else { return };
+        let zone = || self.hist.iter().filter(move |h| h.t >= t0 && h.t < t);
+        let n = zone().count();
+        if n < 5 {
+            return;
+        }
+        let nf = n as f32;
+        let (mp, ml) = (zone().map(|h| h.phi).sum::<f32>() / nf, zone().map(|h| h.l).sum::<f32>() / nf);
+        let (spp, spl) = zone().fold((0.0f32, 0.0f32), |(a, b), h| (a + (h.phi - mp) * (h.phi - mp), b + (h.phi - mp) * (h.l - ml)));
+        let slope = if spp > 0.0025 * nf { spl / spp } else { 0.0 };
+        let resid = libm::sqrtf(zone().map(|h| (h.l - ml - slope * (h.phi - mp)) * (h.l - ml - slope * (h.phi - mp))).sum::<f32>() / nf);
         let [a, b, c] = x.lower;
-        let mag = libm::sqrtf(a * a + b * b + c * c);
-        let eta = self.eta();
-        let sigma_eta = libm::sqrtf(self.cov[1][1].max(0.0));
-        let shape = |eta: f32| {
-            let f = crate::field::dipole::level_unit_field(u, eta, 1.0);
-            libm::sqrtf(f[0] * f[0] + f[1] * f[1] + f[2] * f[2])
-        };
-        let l = libm::logf(mag);
-        let sigma_l = x.sigma / mag;
-        let e_model = l - libm::logf(shape(eta).max(1e-30));
-        let known = sigma_eta < 0.1 && sigma_u < 0.05 && libm::fabsf(eta) < 0.2;
-        let Some((ln_s0, var_s0)) = self.ln_s0 else {
-            if known {
-                self.ln_s0 = Some((e_model, sigma_l * sigma_l));
-            }
-            return;
-        };
-        let sigma_e = libm::sqrtf(sigma_l * sigma_l + var_s0) + 0.002;
-        if e_model - ln_s0 > -3.0 * sigma_e {
-            if known {
-                // Refine the scale (an average over a few correlation times).
-                let w = 0.05f32;
-                self.ln_s0 = Some((ln_s0 + w * (e_model - ln_s0), (1.0 - w) * var_s0 + w * w * sigma_l * sigma_l));
-            }
-            return;
+        let mag2 = (a * a + b * b + c * c).max(1e-30);
+        let sigma_l = libm::sqrtf((a * x.sigma[0]) * (a * x.sigma[0]) + (b * x.sigma[1]) * (b * x.sigma[1]) + (c * x.sigma[2]) * (c * x.sigma[2])) / mag2;
+        let deficit = ml + slope * (now.phi - mp) - now.l;
+        if deficit > 3.0 * (resid + sigma_l) + 0.003 {
+            let eta_obs = libm::sqrtf(deficit / 1.5);
+            self.q = 0.0;
+            self.cov[1][1] = self.cov[1][1].max(eta_obs * eta_obs);
+            self.cov[0][1] = 0.0;
+            self.cov[1][0] = 0.0;
+            // Start the zone afresh from here: the lateral offset is open again.
+            self.zone_start_s = Some(t);
         }
-        // Solve f(u, |η|) = |B|/S0 for |η| (f falls with |η| near the point over the sonde).
-        let target = libm::expf(l - ln_s0);
-        let (mut lo, mut hi) = (0.0f32, 4.0f32);
-        if shape(lo) <= target {
-            return;
-        }
-        for _ in 0..30 {
-            let mid = 0.5 * (lo + hi);
-            if shape(mid) > target {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-        }
-        let eta_obs = 0.5 * (lo + hi);
-        self.q = 0.0;
-        self.cov[1][1] = self.cov[1][1].max(eta_obs * eta_obs);
-        self.cov[0][1] = 0.0;
-        self.cov[1][0] = 0.0;
     }
 
     fn estimate(&mut self, x: &TrackInput, sigma_psi: f32, moving: bool) -> TrackState {
@@ -641,7 +665,7 @@ impl Track {
             st.u_rate_per_s = u_rate;
             st.sigma_u = sigma_psi / libm::fabsf(dphi_du) + libm::fabsf(u_rate) * 0.25 * lag;
             if inside {
-                self.monitor(x, u, sigma_psi / libm::fabsf(dphi_du));
+                self.monitor(x, u);
                 st.eta = self.eta();
                 st.sigma_eta = libm::sqrtf(self.cov[1][1].max(0.0)) * libm::cosf(libm::atanf(self.p));
             }
