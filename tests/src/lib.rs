@@ -1,6 +1,7 @@
 //! Shared helpers for the cross-crate tests: deterministic synthetic signals
 //! and the target images.
 
+pub mod reference;
 pub mod target;
 
 use rand::rngs::StdRng;
@@ -36,4 +37,13 @@ pub fn mean_var(x: &[f64]) -> (f64, f64) {
     let m = x.iter().sum::<f64>() / n;
     let v = x.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (n - 1.0);
     (m, v)
+}
+
+/// Cases per property test: the `PROPTEST_CASES` environment variable when set (CI
+/// sets 10 000), else `local`, the number a plain `cargo test` runs.
+///
+/// `ProptestConfig { cases: n, .. }` and `ProptestConfig::with_cases(n)` override
+/// the variable; passing this function's value keeps it in force.
+pub fn proptest_cases(local: u32) -> u32 {
+    std::env::var("PROPTEST_CASES").ok().and_then(|v| v.trim().parse().ok()).unwrap_or(local)
 }

@@ -54,7 +54,8 @@ pub struct DetectorInfo {
     pub lowpass_enbw_hz: f32,
     /// Time to 99 % of a step, s.
     pub settle_99_s: f32,
-    /// Delay from the data's centre to the readout, s.
+    /// Delay from the data's centre (the centroid of the detector's weights: the
+    /// window's, or the lock-in's impulse response's) to the readout, s.
     pub group_delay_s: f32,
     /// Time between readouts, s.
     pub readout_interval_s: f32,
@@ -75,7 +76,8 @@ enum Core<const N: usize> {
 pub struct Detection<const N: usize> {
     /// Index of the latest sample used.
     pub sample_index: u64,
-    /// Time of the centre of the data used, s from the first sample.
+    /// Time the phasor stands for, s from the first sample: the centroid of the
+    /// weights given to the data used (the readout's sample time less the group delay).
     pub t_s: f64,
     /// Phasor per coil, input units (amplitude of the tone on that coil).
     pub phasors: [C32; N],
@@ -151,7 +153,7 @@ impl<const N: usize> Detector<N> {
                     bandwidth_hz: det.enbw_hz(),
                     lowpass_enbw_hz: det.enbw_hz() / 2.0,
                     settle_99_s: len as f32 / fs,
-                    group_delay_s: (len as f32 - 1.0) / 2.0 / fs,
+                    group_delay_s: ((len as f64 - 1.0 - det.centre_samples()) / fs as f64) as f32,
                     readout_interval_s: hop.min(len.max(hop)) as f32 / fs,
                     block_len: len,
                     overlap: len.div_ceil(hop),
@@ -295,7 +297,7 @@ impl<const N: usize> Detector<N> {
                     let x = self.input.codes(&frames[i], &mut self.stats);
                     self.n += 1;
                     i += 1;
-                    st.step(cfg, n, &x).map(|(p, pp, start)| (n, (start as f64 + (cfg.len as f64 - 1.0) / 2.0) / fs, p, pp))
+                    st.step(cfg, n, &x).map(|(p, pp, start)| (n, (start as f64 + cfg.centre_samples()) / fs, p, pp))
                 }
             };
             if let Some((last, t_s, p, pp)) = done {
@@ -314,7 +316,7 @@ impl<const N: usize> Detector<N> {
         let (p, pp, t_s) = match &mut self.core {
             Core::Block(cfg, st) => {
                 let (p, pp, start) = st.step(cfg, n, &x)?;
-                (p, pp, (start as f64 + (cfg.len as f64 - 1.0) / 2.0) / fs)
+                (p, pp, (start as f64 + cfg.centre_samples()) / fs)
             }
             Core::LockIn(cfg, st) => {
                 st.mix_scaled(cfg, n, &x);
