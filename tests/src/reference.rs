@@ -164,3 +164,52 @@ pub fn window_transfer(window: Window, len: usize, delta_bins: f64) -> f64 {
     let s: C64 = w.iter().enumerate().map(|(m, v)| C64::from_polar(*v, -x * m as f64)).sum();
     s.norm() / w.iter().sum::<f64>()
 }
+
+/// Four tones of amplitude 1 as eight channels: channel `2i` carries
+/// `cos(2π·f_i·n/fs)` and channel `2i + 1` carries `sin(2π·f_i·n/fs)`, in f64.
+///
+/// A linear detector's phasors `P_cos` and `P_sin` of such a pair give its response to
+/// `e^{+j2πfn/fs}` alone, `(P_cos + j·P_sin)/2`, and to `e^{−j2πfn/fs}` alone,
+/// `(P_cos − j·P_sin)/2` (see [`quadrature_split`]): so a real detector's response at
+/// `f` is measured free of its mixing image, and the image separately.
+pub struct QuadratureTones {
+    fs: f64,
+    freqs: [f64; 4],
+    osc: [C64; 4],
+    step: [C64; 4],
+    n: u64,
+}
+
+impl QuadratureTones {
+    /// Tones at `freqs` (Hz), sampled at `fs` (Hz), from n = 0.
+    pub fn new(fs: f64, freqs: [f64; 4]) -> Self {
+        let step = freqs.map(|f| C64::from_polar(1.0, std::f64::consts::TAU * f / fs));
+        Self { fs, freqs, osc: [C64::new(1.0, 0.0); 4], step, n: 0 }
+    }
+}
+
+impl Iterator for QuadratureTones {
+    type Item = [f64; 8];
+
+    fn next(&mut self) -> Option<[f64; 8]> {
+        if self.n.is_multiple_of(1024) {
+            // The exact phase now and then, so the recursive oscillators do not drift.
+            for i in 0..4 {
+                self.osc[i] = C64::from_polar(1.0, std::f64::consts::TAU * (self.freqs[i] * self.n as f64 / self.fs).fract());
+            }
+        }
+        let frame = std::array::from_fn(|c| if c % 2 == 0 { self.osc[c / 2].re } else { self.osc[c / 2].im });
+        for i in 0..4 {
+            self.osc[i] *= self.step[i];
+        }
+        self.n += 1;
+        Some(frame)
+    }
+}
+
+/// `(|P_cos + j·P_sin|/2, |P_cos − j·P_sin|/2)`: a linear detector's gain at `+f` and
+/// at `−f` from its phasors for the `cos` and `sin` of a tone at `f` (amplitude 1).
+pub fn quadrature_split(p_cos: C64, p_sin: C64) -> (f64, f64) {
+    let j = C64::new(0.0, 1.0);
+    (((p_cos + j * p_sin) / 2.0).norm(), ((p_cos - j * p_sin) / 2.0).norm())
+}

@@ -22,7 +22,7 @@ use undertone_dsp::detect::lockin::LockIn;
 use undertone_dsp::detect::nco::{phase_step, step_cycles};
 use undertone_dsp::detect::PROBE_REJECTION_DB;
 use undertone_dsp::{Beacon, Detection, Detector, DetectorKind, DetectorSettings, Window};
-use undertone_tests::reference::{lockin_transfer, LockInF64, C64};
+use undertone_tests::reference::{lockin_transfer, quadrature_split, LockInF64, QuadratureTones, C64};
 
 fn unit<const N: usize>() -> InputScale<N> {
     let mut s = InputScale::unity(24);
@@ -42,12 +42,6 @@ struct Measured {
     chain: [(f64, f64); 4],
 }
 
-fn pair(p: &[C64], i: usize) -> (f64, f64) {
-    let (c, s) = (p[2 * i], p[2 * i + 1]);
-    let j = C64::new(0.0, 1.0);
-    (((c + j * s) / 2.0).norm(), ((c - j * s) / 2.0).norm())
-}
-
 fn measure(s: &DetectorSettings, freqs: [f64; 4], run_s: f64) -> Measured {
     let fs = s.sample_rate_hz as f64;
     let mut det = Detector::<8>::new(s, unit()).unwrap();
@@ -58,32 +52,17 @@ fn measure(s: &DetectorSettings, freqs: [f64; 4], run_s: f64) -> Measured {
     let len = (run_s * fs) as usize;
     let from = (0.9 * len as f64) as u64;
     let (mut acc_d, mut acc_c, mut k) = ([(0.0, 0.0); 4], [(0.0, 0.0); 4], 0.0);
-    let steps: Vec<C64> = freqs.iter().map(|f| C64::from_polar(1.0, std::f64::consts::TAU * f / fs)).collect();
-    let mut osc = [C64::new(1.0, 0.0); 4];
-    for n in 0..len {
-        if n % 1024 == 0 {
-            // Exact phase now and then, so the f64 oscillators do not drift.
-            for i in 0..4 {
-                osc[i] = C64::from_polar(1.0, std::f64::consts::TAU * (freqs[i] * n as f64 / fs).fract());
-            }
-        }
-        let x: Vec<f64> = (0..8).map(|c| if c % 2 == 0 { osc[c / 2].re } else { osc[c / 2].im }).collect();
-        for i in 0..4 {
-            osc[i] *= steps[i];
-        }
-        let frame: [f32; 8] = std::array::from_fn(|c| x[c] as f32);
-        let d = det.push(&frame);
+    for x in QuadratureTones::new(fs, freqs).take(len) {
+        let d = det.push(&x.map(|v| v as f32));
         let r = chain.push(&x);
-        if let (Some(d), Some(r)) = (&d, &r) {
-            assert_eq!(d.sample_index, r.sample_index);
-        }
         assert_eq!(d.is_some(), r.is_some());
         if let (Some(d), Some(r)) = (d, r) {
+            assert_eq!(d.sample_index, r.sample_index);
             if d.sample_index >= from {
                 let p: Vec<C64> = d.phasors.iter().map(|v| C64::new(v.re as f64, v.im as f64)).collect();
                 for i in 0..4 {
-                    let (a, b) = pair(&p, i);
-                    let (e, f) = pair(&r.main, i);
+                    let (a, b) = quadrature_split(p[2 * i], p[2 * i + 1]);
+                    let (e, f) = quadrature_split(r.main[2 * i], r.main[2 * i + 1]);
                     acc_d[i] = (acc_d[i].0 + a, acc_d[i].1 + b);
                     acc_c[i] = (acc_c[i].0 + e, acc_c[i].1 + f);
                 }
