@@ -9,17 +9,13 @@
 //! scale. The reference is a plain count written here: a code clips when it is at
 //! or beyond ±full scale.
 //!
-//! Cases: `PROPTEST_CASES` when set (CI sets 10 000), else the number given below.
+//! Cases: the number given below for a plain `cargo test`; `PROPTEST_CASES` overrides
+//! it (the `proptest!` macro lays the environment over its config), and CI sets 10 000.
 
 use proptest::prelude::*;
 use undertone_dsp::detect::goertzel::Goertzel;
 use undertone_dsp::detect::input::{ChannelStats, InputScale};
 use undertone_dsp::phasor::Phasor;
-
-/// Cases per property: `PROPTEST_CASES` when set, else `local`.
-fn cases(local: u32) -> u32 {
-    std::env::var("PROPTEST_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(local)
-}
 
 /// The OR of one's-complement magnitudes, as the lock-in's mixing loop gathers it.
 fn or_of(frames: &[[i32; 3]]) -> [u32; 3] {
@@ -67,7 +63,7 @@ fn frames_and_scale() -> impl Strategy<Value = (i32, Vec<[i32; 3]>)> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(cases(512)))]
+    #![proptest_config(ProptestConfig::with_cases(512))]
 
     /// `code_stats` counts exactly the clipped codes `codes` counts, frame by frame,
     /// and its peak bounds the true peak from above, within a factor of two (and one

@@ -4,13 +4,14 @@
 //! its interval: non-finite samples, clipped samples (at or beyond full scale),
 //! samples, and the flags they raise.
 //!
-//! Cases: `PROPTEST_CASES` when set (CI sets 10 000), else the number given below.
+//! Cases: the number given below for a plain `cargo test`; `PROPTEST_CASES` overrides
+//! it (the `proptest!` macro lays the environment over its config), and CI sets 10 000.
 
 use proptest::prelude::*;
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::phasor::Phasor;
-use undertone_dsp::{Beacon, Detection, Detector, DetectorKind, DetectorSettings, Flags, Window, C32};
-use undertone_tests::proptest_cases;
+use undertone_dsp::{Beacon, Detection, Detector, DetectorKind, DetectorSettings, Flags, C32};
+use undertone_tests::ALL_KINDS;
 
 fn any_f32() -> impl Strategy<Value = f32> {
     prop_oneof![
@@ -28,12 +29,7 @@ fn any_f32() -> impl Strategy<Value = f32> {
 }
 
 fn kinds() -> impl Strategy<Value = DetectorKind> {
-    prop_oneof![
-        (1u8..=4).prop_map(|poles| DetectorKind::LockIn { poles }),
-        Just(DetectorKind::Block { window: Window::Rectangular }),
-        Just(DetectorKind::Block { window: Window::Hann }),
-        Just(DetectorKind::Block { window: Window::BlackmanHarris4 }),
-    ]
+    prop::sample::select(ALL_KINDS.to_vec())
 }
 
 /// 4 kHz, 50 readouts/s, 40 Hz: the longest block (Blackman–Harris) is 201 samples.
@@ -78,7 +74,7 @@ fn check_readout<const N: usize>(
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(proptest_cases(64)))]
+    #![proptest_config(ProptestConfig::with_cases(64))]
 
     /// f32 frames: a sample counts as non-finite when NaN or infinite, as clipped when
     /// finite and at or beyond full scale (1.0 here); the input stage saturates at full

@@ -3,14 +3,15 @@
 //! the DFT: `rustfft` at integer bins, the DTFT's defining sum Σ x[n]·e^(−jωn)
 //! in f64 at any other frequency.
 //!
-//! Cases: `PROPTEST_CASES` when set (CI sets 10 000), else the number given below.
+//! Cases: the number given below for a plain `cargo test`; `PROPTEST_CASES` overrides
+//! it (the `proptest!` macro lays the environment over its config), and CI sets 10 000.
 
 use proptest::prelude::*;
 use rustfft::{num_complex::Complex, FftPlanner};
 use undertone_dsp::detect::goertzel::Goertzel;
 use undertone_dsp::phasor::Phasor;
 use undertone_dsp::C32;
-use undertone_tests::{proptest_cases, tone, Noise};
+use undertone_tests::{tone, Noise};
 
 fn c64(a: C32) -> Complex<f64> {
     Complex::new(a.re as f64, a.im as f64)
@@ -139,7 +140,7 @@ fn non_integer_positions_match_direct_sum() {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(proptest_cases(64)))]
+    #![proptest_config(ProptestConfig::with_cases(64))]
 
     /// Any block length, any bin, any scale: Goertzel agrees with rustfft within `bound`.
     #[test]

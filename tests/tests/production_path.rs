@@ -12,7 +12,8 @@
 //! * exact counts of full-scale codes, made here: a code clips when it is at or
 //!   beyond ±full scale.
 //!
-//! Cases: `PROPTEST_CASES` when set (CI sets 10 000), else the number given below.
+//! Cases: the number given below for a plain `cargo test`; `PROPTEST_CASES` overrides
+//! it (the `proptest!` macro lays the environment over its config), and CI sets 10 000.
 
 use proptest::prelude::*;
 use rand::rngs::StdRng;
@@ -22,8 +23,8 @@ use undertone_dsp::detect::lockin::LockIn;
 use undertone_dsp::detect::nco::{phase_step, step_cycles};
 use undertone_dsp::phasor::Phasor;
 use undertone_dsp::{Beacon, Detection, Detector, DetectorKind, DetectorSettings, Flags, Window};
-use undertone_tests::proptest_cases;
 use undertone_tests::reference::{block_dft_f64, LockInF64, C64};
+use undertone_tests::ALL_KINDS;
 
 const FS: f32 = 8_000.0;
 const FSC: i32 = 8_388_607; // 24-bit converter: 2^23 − 1
@@ -33,12 +34,7 @@ fn settings(kind: DetectorKind, bandwidth_hz: f32) -> DetectorSettings {
 }
 
 fn kinds() -> impl Strategy<Value = DetectorKind> {
-    prop_oneof![
-        (1u8..=4).prop_map(|poles| DetectorKind::LockIn { poles }),
-        Just(DetectorKind::Block { window: Window::Rectangular }),
-        Just(DetectorKind::Block { window: Window::Hann }),
-        Just(DetectorKind::Block { window: Window::BlackmanHarris4 }),
-    ]
+    prop::sample::select(ALL_KINDS.to_vec())
 }
 
 /// How a stretch of frames reaches the detector.
@@ -96,25 +92,30 @@ fn codes(seed: u64, len: usize, wild: bool) -> Vec<[i32; 4]> {
         .collect()
 }
 
-fn without_gain(feed: Feed) -> Feed {
-    match feed {
-        Feed::GainThenBlock(..) => Feed::Block,
-        f => f,
-    }
-}
-
-/// Run `frames` through the code path following `plan` (repeated, without its gain
-/// steps, until the frames run out).
-fn run_codes(det: &mut Detector<4>, frames: &[[i32; 4]], plan: &[(usize, Feed)]) -> Vec<Detection<4>> {
+/// The plan laid over `len` frames: (frames, how they are fed), the plan repeated until
+/// the frames run out, its gain steps on the first pass only.
+fn stretches(len: usize, plan: &[(usize, Feed)]) -> Vec<(std::ops::Range<usize>, Feed)> {
     let mut out = Vec::new();
     let mut i = 0;
-    for (step, &(len, feed)) in plan.iter().cycle().enumerate() {
-        if i >= frames.len() {
+    for (step, &(n, feed)) in plan.iter().cycle().enumerate() {
+        if i >= len {
             break;
         }
-        // Gain steps on the first pass through the plan only.
-        let feed = if step >= plan.len() { without_gain(feed) } else { feed };
-        let chunk = &frames[i..(i + len).min(frames.len())];
+        let feed = match feed {
+            Feed::GainThenBlock(..) if step >= plan.len() => Feed::Block,
+            f => f,
+        };
+        out.push((i..(i + n).min(len), feed));
+        i += n;
+    }
+    out
+}
+
+/// Run `frames` through the code path following `plan`.
+fn run_codes(det: &mut Detector<4>, frames: &[[i32; 4]], plan: &[(usize, Feed)]) -> Vec<Detection<4>> {
+    let mut out = Vec::new();
+    for (range, feed) in stretches(frames.len(), plan) {
+        let chunk = &frames[range];
         match feed {
             Feed::Block => det.push_codes_block(chunk, |d| out.push(d)),
             Feed::Frames => out.extend(chunk.iter().filter_map(|f| det.push_codes(f))),
@@ -124,7 +125,6 @@ fn run_codes(det: &mut Detector<4>, frames: &[[i32; 4]], plan: &[(usize, Feed)])
                 det.push_codes_block(chunk, |d| out.push(d));
             }
         }
-        i += chunk.len();
     }
     out
 }
@@ -132,20 +132,12 @@ fn run_codes(det: &mut Detector<4>, frames: &[[i32; 4]], plan: &[(usize, Feed)])
 /// The same frames as f32 samples through `Detector::push`, with the same gain steps.
 fn run_floats(det: &mut Detector<4>, frames: &[[i32; 4]], plan: &[(usize, Feed)]) -> Vec<Detection<4>> {
     let mut out = Vec::new();
-    let mut i = 0;
-    for (step, &(len, feed)) in plan.iter().cycle().enumerate() {
-        if i >= frames.len() {
-            break;
-        }
-        // Gain steps on the first pass through the plan only.
-        let feed = if step >= plan.len() { without_gain(feed) } else { feed };
-        let end = (i + len).min(frames.len());
+    for (range, feed) in stretches(frames.len(), plan) {
         if let Feed::GainThenBlock(c, k) = feed {
             let s = det.input().scale[c] * k;
             det.set_scale(c, s).unwrap();
         }
-        out.extend(frames[i..end].iter().filter_map(|f| det.push(&f.map(|k| k as f32))));
-        i = end;
+        out.extend(frames[range].iter().filter_map(|f| det.push(&f.map(|k| k as f32))));
     }
     out
 }
@@ -161,7 +153,7 @@ fn input(seed: u64) -> InputScale<4> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(proptest_cases(64)))]
+    #![proptest_config(ProptestConfig::with_cases(64))]
 
     /// `push_codes_block` and `push_codes` in any chunking and interleaving, with gain
     /// steps between chunks, give the readouts `push` gives on the same values: the same
