@@ -6,6 +6,9 @@
 //! coils), 50 Hz mains with harmonics, white noise, 24-bit codes. The metrics:
 //! amplitude and phase error per coil.
 
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, StandardNormal};
 use std::io::Write;
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::phasor::Phasor;
@@ -25,18 +28,9 @@ pub fn run(out: &mut dyn Write) -> std::io::Result<()> {
     let fsc = scale.full_scale_code as f64;
     scale.scale = [1.0 / fsc as f32; 4];
     let mut det = Detector::<4>::new(&settings, scale).map_err(std::io::Error::other)?;
-    let mut rng = 0x2545_f491_4f6c_dd1du64;
-    let mut gauss = move || {
-        // Box–Muller from a xorshift generator (deterministic demo data).
-        let mut u = || {
-            rng ^= rng << 13;
-            rng ^= rng >> 7;
-            rng ^= rng << 17;
-            ((rng >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-        };
-        let (a, b) = (u(), u());
-        (-2.0 * a.ln()).sqrt() * (2.0 * std::f64::consts::PI * b).cos()
-    };
+    // Deterministic demo noise: a seeded ChaCha8 stream through rand_distr's normal sampler.
+    let mut rng = ChaCha8Rng::seed_from_u64(0x2545_f491_4f6c_dd1d);
+    let mut gauss = move || -> f64 { StandardNormal.sample(&mut rng) };
     let secs = 4.0;
     let mut last = None;
     let w = 2.0 * std::f64::consts::PI * f0 / fs as f64;

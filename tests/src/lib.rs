@@ -1,11 +1,13 @@
-//! Shared helpers for the cross-crate tests: deterministic synthetic signals
-//! and the target images.
+//! Shared helpers for the cross-crate tests: deterministic synthetic signals,
+//! f64 reference implementations ([`reference`]) and the target images.
 
+pub mod reference;
 pub mod target;
 
 use rand::rngs::StdRng;
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
+use undertone_dsp::{DetectorKind, Window};
 
 /// `A·cos(2π·f/fs·n + φ)` for `n` in `0..len`, computed in f64.
 pub fn tone(len: usize, fs: f64, f_hz: f64, amp: f64, phase_rad: f64) -> Vec<f32> {
@@ -37,3 +39,15 @@ pub fn mean_var(x: &[f64]) -> (f64, f64) {
     let v = x.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (n - 1.0);
     (m, v)
 }
+
+/// Every detector kind the settings allow: the lock-in with 1 to 4 poles and the block
+/// detector with each window.
+pub const ALL_KINDS: [DetectorKind; 7] = [
+    DetectorKind::LockIn { poles: 1 },
+    DetectorKind::LockIn { poles: 2 },
+    DetectorKind::LockIn { poles: 3 },
+    DetectorKind::LockIn { poles: 4 },
+    DetectorKind::Block { window: Window::Rectangular },
+    DetectorKind::Block { window: Window::Hann },
+    DetectorKind::Block { window: Window::BlackmanHarris4 },
+];

@@ -71,6 +71,16 @@ impl BlockDetector {
         self.window.enbw_bins() * self.sample_rate_hz / self.len as f32
     }
 
+    /// The instant a block's phasor stands for, in samples from the block's first
+    /// sample: the centroid `Σ m·w[m]/Σw` of the window, so an amplitude changing
+    /// linearly in time is read at its value there. The periodic cosine-sum windows
+    /// are symmetric about `L/2` with `w[0]` unpaired, so the centroid is
+    /// `L/2 − w[0]/(2·a0)`: `(L − 1)/2` for the rectangular window, `L/2` for Hann.
+    pub fn centre_samples(&self) -> f64 {
+        let w0 = self.window.value(0, self.len) as f64;
+        self.len as f64 / 2.0 - w0 / (2.0 * self.window.coherent_gain() as f64)
+    }
+
     /// Normalised magnitude response at `offset_hz` from the tone.
     pub fn response(&self, offset_hz: f64) -> f64 {
         self.window.response(offset_hz * self.len as f64 / self.sample_rate_hz as f64, self.len)

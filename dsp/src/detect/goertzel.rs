@@ -19,8 +19,18 @@
 //! near ω = 0 and ω = π; for π/4 < ω < 3π/4 the plain recurrence is the more
 //! accurate and is used there (`y = s[L−1]·e^{jω} − s[L−2]`).
 //! Cost: one multiply and two or three adds per sample.
-//! Measured f32 accuracy against an f64 direct sum: relative error below 1e-5 for
-//! L up to 16 384 (see `tests/`).
+//! Measured f32 accuracy for a tone's own bin against an f64 reference (rustfft, or
+//! the direct sum; `tests/tests/goertzel_reference.rs`): relative error about 1e-6 at
+//! L = 256, 1e-5 at L = 16 384 and 5e-4 at L = 2^20 (the longest block) for a low ω,
+//! and up to ten times more where the plain form runs (4.7e-3 at ω = π/2, L = 2^20):
+//! rounding accumulates roughly as 2^−24·L.
+//!
+//! ```
+//! use undertone_dsp::detect::goertzel::Goertzel;
+//! // x = [1, 2, 3, 4]: the DFT's bin 1 is −2 + 2j.
+//! let x = Goertzel::from_cycles_per_sample(0.25).dtft_of(&[1.0, 2.0, 3.0, 4.0]);
+//! assert!((x.re + 2.0).abs() < 1e-5 && (x.im - 2.0).abs() < 1e-5);
+//! ```
 
 use crate::phasor::C32;
 

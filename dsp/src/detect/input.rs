@@ -106,15 +106,31 @@ impl<const N: usize> InputScale<N> {
     }
 
     /// Statistics of a block of codes already mixed, from the OR of their
-    /// one's-complement magnitudes `or` (its top bit bounds the largest |code|
-    /// within a factor of two). Blocks that may reach half scale are recounted
-    /// exactly (clipping counts and the true peak); for the rest the peak is the
-    /// bound `2^(b+1) − 1` of the highest set bit b, and nothing can be clipped.
-    /// (For a 24-bit converter the recount starts at 2^22, half of full scale.)
+    /// one's-complement magnitudes `or` (`k ^ (k >> 31)`: `k` for `k ≥ 0`,
+    /// `|k| − 1` below). With b the highest set bit of the OR, every code obeys
+    /// `|k| ≤ 2^(b+1)`, and some code has `|k| ≥ 2^b`. Blocks that may reach full
+    /// scale are recounted exactly (clipping counts and the true peak); for the
+    /// rest the peak is the bound `2^(b+1)`, at most twice the true peak (one code
+    /// for a block of zeros, which the OR cannot tell from −1), and nothing can be
+    /// clipped. (For a 24-bit converter the recount starts at 2^22, half of full scale.)
+    ///
+    /// ```
+    /// use undertone_dsp::detect::input::{ChannelStats, InputScale};
+    /// let scale = InputScale::<1>::unity(24); // full scale ±8 388 607
+    /// let frames = [[8_388_607], [-3], [12]];
+    /// let or = frames.iter().fold([0u32], |o, f| [o[0] | (f[0] ^ (f[0] >> 31)) as u32]);
+    /// let mut stats = ChannelStats::new();
+    /// scale.code_stats(&frames, &or, &mut stats);
+    /// assert_eq!((stats.clipped[0], stats.samples), (1, 3));
+    /// assert_eq!(stats.peak_fraction[0], 1.0);
+    /// ```
     pub fn code_stats(&self, frames: &[[i32; N]], or: &[u32; N], stats: &mut ChannelStats<N>) {
         let fsc = self.full_scale_code;
-        // The highest power of two not above full scale: an OR below it proves every |code| is below it.
-        let top = 1u32 << (31 - (fsc as u32).max(1).leading_zeros());
+        // A code clips when its magnitude term reaches fsc − 1 (k ≤ −fsc) or fsc (k ≥ fsc), so
+        // an OR below the highest power of two not above fsc − 1 proves nothing clipped
+        // (fsc = 1: always recount).
+        let lim = (fsc as u32).saturating_sub(1);
+        let top = if lim == 0 { 0 } else { 1u32 << (31 - lim.leading_zeros()) };
         let inv = 1.0 / fsc as f32;
         for c in 0..N {
             let peak = if or[c] >= top {
@@ -127,10 +143,9 @@ impl<const N: usize> InputScale<N> {
                     m = m.max(k.unsigned_abs());
                 }
                 m
-            } else if or[c] == 0 {
-                0
             } else {
-                u32::MAX >> or[c].leading_zeros()
+                // or < top ≤ 2^30, so the shift stays below 31.
+                1u32 << (32 - or[c].leading_zeros())
             };
             let frac = peak as f32 * inv;
             if frac > stats.peak_fraction[c] {

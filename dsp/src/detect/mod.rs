@@ -54,7 +54,8 @@ pub struct DetectorInfo {
     pub lowpass_enbw_hz: f32,
     /// Time to 99 % of a step, s.
     pub settle_99_s: f32,
-    /// Delay from the data's centre to the readout, s.
+    /// Delay from the data's centre (the centroid of the detector's weights: the
+    /// window's, or the lock-in's impulse response's) to the readout, s.
     pub group_delay_s: f32,
     /// Time between readouts, s.
     pub readout_interval_s: f32,
@@ -75,7 +76,8 @@ enum Core<const N: usize> {
 pub struct Detection<const N: usize> {
     /// Index of the latest sample used.
     pub sample_index: u64,
-    /// Time of the centre of the data used, s from the first sample.
+    /// Time the phasor stands for, s from the first sample: the centroid of the
+    /// weights given to the data used (the readout's sample time less the group delay).
     pub t_s: f64,
     /// Phasor per coil, input units (amplitude of the tone on that coil).
     pub phasors: [C32; N],
@@ -92,6 +94,27 @@ pub struct Detection<const N: usize> {
 }
 
 /// The multi-coil detector.
+///
+/// ```
+/// use undertone_dsp::detect::input::InputScale;
+/// use undertone_dsp::{Beacon, Detector, DetectorSettings, Flags};
+/// // Two coils, a 512 Hz beacon sampled at 8 kHz, the default 4-pole lock-in.
+/// let settings = DetectorSettings::new(8_000.0, Beacon::Hz512);
+/// let mut det = Detector::<2>::new(&settings, InputScale::unity(24)).unwrap();
+/// let w = core::f64::consts::TAU * 512.0 / 8_000.0;
+/// let mut last = None;
+/// for n in 0..16_000 {
+///     let x = (w * n as f64).cos() as f32;
+///     if let Some(d) = det.push(&[0.5 * x, -0.25 * x]) {
+///         last = Some(d);
+///     }
+/// }
+/// let d = last.unwrap();
+/// // A·cos(ω0·n) reads as the phasor A: a negative amplitude as a phase of π.
+/// assert!((d.phasors[0].re - 0.5).abs() < 1e-3 && d.phasors[0].im.abs() < 1e-3);
+/// assert!((d.phasors[1].re + 0.25).abs() < 1e-3);
+/// assert!(!d.flags.contains(Flags::SETTLING));
+/// ```
 #[derive(Clone, Copy, Debug)]
 pub struct Detector<const N: usize> {
     settings: DetectorSettings,
@@ -153,7 +176,7 @@ impl<const N: usize> Detector<N> {
                     bandwidth_hz: det.enbw_hz(),
                     lowpass_enbw_hz: det.enbw_hz() / 2.0,
                     settle_99_s: len as f32 / fs,
-                    group_delay_s: (len as f32 - 1.0) / 2.0 / fs,
+                    group_delay_s: ((len as f64 - 1.0 - det.centre_samples()) / fs as f64) as f32,
                     readout_interval_s: hop.min(len.max(hop)) as f32 / fs,
                     block_len: len,
                     overlap: len.div_ceil(hop),
@@ -250,6 +273,15 @@ impl<const N: usize> Detector<N> {
     }
 
     /// Neighbouring mains harmonics and their rejection.
+    ///
+    /// ```
+    /// use undertone_dsp::detect::input::InputScale;
+    /// use undertone_dsp::{Beacon, Detector, DetectorSettings};
+    /// let det = Detector::<1>::new(&DetectorSettings::new(48_000.0, Beacon::Hz512), InputScale::unity(24)).unwrap();
+    /// let near = det.mains().nearest(50.0);
+    /// assert_eq!((near.order, near.freq_hz), (10, 500.0));
+    /// assert!(near.rejection_db > 60.0 && !det.mains().flagged());
+    /// ```
     pub fn mains(&self) -> MainsReport {
         MainsReport::new(self.info.tone_hz, |d| self.response(d))
     }
@@ -272,6 +304,23 @@ impl<const N: usize> Detector<N> {
     /// The fast path: for the lock-in, codes are mixed in a tight loop and scaled
     /// once per boxcar; full-scale codes are found from a running OR of
     /// magnitudes, with an exact recount only for blocks that reach half scale.
+    /// Any chunking gives the same detections as feeding the frames one by one.
+    ///
+    /// ```
+    /// use undertone_dsp::detect::input::InputScale;
+    /// use undertone_dsp::{Beacon, Detector, DetectorSettings, Flags};
+    /// let settings = DetectorSettings::new(8_000.0, Beacon::Hz640);
+    /// let mut det = Detector::<1>::new(&settings, InputScale::unity(24)).unwrap();
+    /// // One second of a 24-bit converter at full scale: every readout says CLIPPED.
+    /// let w = core::f64::consts::TAU * 640.0 / 8_000.0;
+    /// let frames: Vec<[i32; 1]> = (0..8_000).map(|n| [((w * n as f64).cos() * 9e6).clamp(-8_388_608.0, 8_388_607.0) as i32]).collect();
+    /// let mut readouts = 0;
+    /// det.push_codes_block(&frames, |d| {
+    ///     assert!(d.flags.contains(Flags::CLIPPED));
+    ///     readouts += 1;
+    /// });
+    /// assert_eq!(readouts, 20); // 20 readouts a second
+    /// ```
     pub fn push_codes_block(&mut self, frames: &[[i32; N]], mut on: impl FnMut(Detection<N>)) {
         let mut i = 0;
         while i < frames.len() {
@@ -297,7 +346,7 @@ impl<const N: usize> Detector<N> {
                     let x = self.input.codes(&frames[i], &mut self.stats);
                     self.n += 1;
                     i += 1;
-                    st.step(cfg, n, &x).map(|(p, pp, start)| (n, (start as f64 + (cfg.len as f64 - 1.0) / 2.0) / fs, p, pp))
+                    st.step(cfg, n, &x).map(|(p, pp, start)| (n, (start as f64 + cfg.centre_samples()) / fs, p, pp))
                 }
             };
             if let Some((last, t_s, p, pp)) = done {
@@ -316,7 +365,7 @@ impl<const N: usize> Detector<N> {
         let (p, pp, t_s) = match &mut self.core {
             Core::Block(cfg, st) => {
                 let (p, pp, start) = st.step(cfg, n, &x)?;
-                (p, pp, (start as f64 + (cfg.len as f64 - 1.0) / 2.0) / fs)
+                (p, pp, (start as f64 + cfg.centre_samples()) / fs)
             }
             Core::LockIn(cfg, st) => {
                 st.mix_scaled(cfg, n, &x);

@@ -42,8 +42,10 @@ impl<const N: usize> OffsetEstimator<N> {
                 z += p[c] * self.prev[c].conj();
             }
             // Normalise so a strong reading does not swamp the average's time constant.
+            // A product below the normal f32 range carries no usable phase, and 1/m
+            // would overflow: skipped.
             let m = z.magnitude();
-            if m > 0.0 && m.is_finite() {
+            if m >= f32::MIN_POSITIVE && m.is_finite() {
                 let u = z.scale(1.0 / m);
                 self.z += (u - self.z).scale(self.beta);
             }

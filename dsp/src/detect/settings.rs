@@ -49,7 +49,13 @@ pub enum Beacon {
 }
 
 impl Beacon {
-    /// The tone frequency in Hz. `Beacon::Hz640.freq_hz() == 640.0`
+    /// The tone frequency in Hz.
+    ///
+    /// ```
+    /// use undertone_dsp::Beacon;
+    /// assert_eq!(Beacon::Hz640.freq_hz(), 640.0);
+    /// assert_eq!(Beacon::from_hz(8192.0), Beacon::Hz8192);
+    /// ```
     pub fn freq_hz(self) -> f32 {
         match self {
             Beacon::Hz512 => 512.0,
@@ -94,6 +100,20 @@ impl DetectorKind {
 }
 
 /// Everything the detector needs, in physical units.
+///
+/// ```
+/// use undertone_dsp::{Beacon, DetectorKind, DetectorSettings, Param, Window};
+/// let s = DetectorSettings::new(48_000.0, Beacon::Hz640);
+/// assert!(s.validate().is_ok());
+/// assert_eq!(s.kind, DetectorKind::LockIn { poles: 4 });
+/// let block = s.with_kind(DetectorKind::Block { window: Window::Hann });
+/// assert!(block.bandwidth_hz > 0.0 && block.validate().is_ok());
+/// // A setting out of range names itself and its range.
+/// let mut bad = s;
+/// bad.sample_rate_hz = 1_000.0;
+/// let e = bad.validate().unwrap_err();
+/// assert_eq!((e.param, e.min, e.max), (Param::SampleRate, 4_000.0, 250_000.0));
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct DetectorSettings {

@@ -18,6 +18,16 @@ use crate::field::vec3::{dot, norm, scale, sub, V3};
 pub const MU0_OVER_4PI: f32 = 1e-7;
 
 /// Field (T) at `point_m` of a dipole of moment `moment_am2` (A·m²) at `source_m`.
+///
+/// ```
+/// use undertone_dsp::field::dipole::dipole_field;
+/// // m = 1 A·m² along x, 1 m below: B = −μ0·m/(4πr³) = −1e-7 T along x (the main peak).
+/// let b = dipole_field([1.0, 0.0, 0.0], [0.0, 0.0, -1.0], [0.0; 3]);
+/// assert!((b[0] + 1e-7).abs() < 1e-13 && b[1] == 0.0 && b[2].abs() < 1e-13);
+/// // Ahead by h/√2 the along component vanishes (the null) and the field is vertical.
+/// let b = dipole_field([1.0, 0.0, 0.0], [0.0, 0.0, -1.0], [core::f32::consts::FRAC_1_SQRT_2, 0.0, 0.0]);
+/// assert!(b[0].abs() < 1e-13 && (b[2] - 7.698e-8).abs() < 1e-11);
+/// ```
 pub fn dipole_field(moment_am2: V3, source_m: V3, point_m: V3) -> V3 {
     let r = sub(point_m, source_m);
     let d = norm(r);

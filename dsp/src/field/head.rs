@@ -46,6 +46,23 @@ pub struct Roles {
 }
 
 /// A head of `N` coils.
+///
+/// ```
+/// use undertone_dsp::field::Source;
+/// use undertone_dsp::Head;
+/// let head = Head::reference4();
+/// assert!(head.validate().is_ok());
+/// assert_eq!(head.spacing_m(), Some(0.40));
+/// // A level sonde (1 A·m² along x) 1 m below the lower coils: the along coils read
+/// // −μ0m/(4πh³), at h = 1 m and h = 1.4 m; the across and vertical coils read nothing.
+/// let sonde = Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -1.0] };
+/// let r = head.readings(&sonde, [0.0; 3], 0.0);
+/// assert!((r[0] + 1e-7).abs() < 1e-13 && (r[3] + 1e-7 / 1.4f32.powi(3)).abs() < 1e-13);
+/// assert!(r[1].abs() < 1e-15 && r[2].abs() < 1e-15);
+/// // Turned a quarter turn, the across coil takes the along coil's reading.
+/// let r = head.readings(&sonde, [0.0; 3], core::f32::consts::FRAC_PI_2);
+/// assert!((r[1] - 1e-7).abs() < 1e-12 && r[0].abs() < 1e-12);
+/// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Head<const N: usize> {

@@ -11,6 +11,13 @@ use crate::field::vec3::{cross, dot, norm, scale, sub, unit, V3};
 pub const MU0_OVER_2PI: f32 = 2e-7;
 
 /// Field (T) at `point_m` of current `current_a` along the line through `origin_m` with direction `dir`.
+///
+/// ```
+/// use undertone_dsp::field::line::line_field;
+/// // 1 A along +x, 2 m below: |B| = μ0·I/(2πρ) = 1e-7 T, along x̂ × ẑ = −ŷ above the line.
+/// let b = line_field(1.0, [0.0, 0.0, -2.0], [1.0, 0.0, 0.0], [0.0; 3]);
+/// assert!((b[1] + 1e-7).abs() < 1e-13 && b[0] == 0.0 && b[2].abs() < 1e-13);
+/// ```
 pub fn line_field(current_a: f32, origin_m: V3, dir: V3, point_m: V3) -> V3 {
     let d = unit(dir);
     let r = sub(point_m, origin_m);
