@@ -26,7 +26,7 @@ use crate::field::FieldModel;
 use crate::flags::Flags;
 use crate::locate::calibration::Calibration;
 use crate::locate::components::FieldVector;
-use crate::locate::depth::{gradient_depth, known_moment_depth, CoilPair, Depth, DepthEstimate, Offsets, RatioOf, Withheld};
+use crate::locate::depth::{gradient_depth, known_moment_depth, solve_g, CoilPair, Depth, DepthEstimate, Offsets, RatioOf, Withheld};
 use crate::locate::fit::{fit_from, Fix, LateralPrior, P};
 use crate::locate::guidance::{over_tolerance_m, Across, Along, Distance, Guidance, Hint};
 use crate::locate::orientation::{Hysteresis, Orientation};
@@ -331,7 +331,9 @@ impl<const N: usize> Locator<N> {
         let fix = self.fix(&field, &track, present && !settling && signal == Signal::Good);
         let distorted = fix.map(|f| f.dof > 0 && f.chi2 / f.dof as f32 > s.distortion_chi2).unwrap_or(false);
         // 6. Offsets and guidance.
-        let h_hint = self.last_depth_m.or(fix.filter(|f| f.converged).map(|f| f.depth_m.value));
+        // A depth for tolerances and distances: the last one shown, else the fit's, else the
+        // gradient ratio read as if over the sonde (good enough to scale a tolerance).
+        let h_hint = self.last_depth_m.or(fix.filter(|f| f.converged).map(|f| f.depth_m.value)).or_else(|| self.provisional_depth(&field));
         let offsets = self.offsets(&track, fix.as_ref(), h_hint);
         let mut guidance = if !present {
             Guidance::unsure(Withheld::NoSignal, Hint::Wait)
@@ -571,6 +573,14 @@ impl<const N: usize> Locator<N> {
             return Err(Withheld::LateralUnknown);
         }
         Ok(p.offsets)
+    }
+
+    /// A rough depth from the coil ratio taken as if over the sonde (no gate), for scaling
+    /// tolerances only; `None` where the ratio is not physical.
+    fn provisional_depth(&self, field: &FieldVector<N>) -> Option<f32> {
+        let sp = self.head.spacing_m()?;
+        let r = field.lower[0] / field.upper[0];
+        solve_g(self.settings.model, RatioOf::Along, 0.0, 0.0, libm::fabsf(r)).map(|g| sp / g)
     }
 
     /// Step 7b: the gradient depth.

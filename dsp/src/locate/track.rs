@@ -125,6 +125,9 @@ struct Passage {
     ended_s: Option<f32>,
 }
 
+/// Largest change of the field between two readouts taken as a measurement (a fraction of it).
+pub const SPIKE_FRACTION: f32 = 0.5;
+
 /// Half-width of the zone near the point over the sonde where the strength check runs, in depths.
 pub const ZONE_U: f32 = 0.3;
 
@@ -151,6 +154,7 @@ pub struct Track {
     have: bool,
     last_t: f32,
     last: V3,
+    last_noise: f32,
     last_psi: f32,
     // The next readout's ψ starts the unwrap afresh (after a reversal) rather than stepping.
     have_last_psi: bool,
@@ -274,6 +278,7 @@ impl Track {
             have: false,
             last_t: 0.0,
             last: [0.0; 3],
+            last_noise: f32::INFINITY,
             last_psi: 0.0,
             have_last_psi: false,
             phi: 0.0,
@@ -314,16 +319,23 @@ impl Track {
             return self.gap(dt, x.t_s);
         }
         // Motion: the field changed by more than its noise since the last readout.
-        let moving = if self.have {
+        let change = if self.have {
             let d = [a - self.last[0], b - self.last[1], c - self.last[2]];
             let d2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2];
             // Either sign of the stored reading (the normalisation may flip it).
             let e = [a + self.last[0], b + self.last[1], c + self.last[2]];
             let e2 = e[0] * e[0] + e[1] * e[1] + e[2] * e[2];
-            libm::sqrtf(d2.min(e2)) > 3.0 * sn + 0.004 * mag
+            libm::sqrtf(d2.min(e2))
         } else {
-            false
+            0.0
         };
+        // A jump the detector's own smoothing cannot produce between two readouts (half the
+        // field at once) is not a measurement of the field: left out, like a gap.
+        let last_mag = libm::sqrtf(self.last[0] * self.last[0] + self.last[1] * self.last[1] + self.last[2] * self.last[2]);
+        if self.have && change > SPIKE_FRACTION * mag.max(last_mag) + 5.0 * sn.min(self.last_noise) {
+            return self.gap(dt, x.t_s);
+        }
+        let moving = self.have && change > 3.0 * sn + 0.004 * mag;
         // Dip angle along the axis direction β (rotate the horizontal part by −β).
         let beta = self.axis();
         let a_ax = a * libm::cosf(beta) + b * libm::sinf(beta);
@@ -362,6 +374,7 @@ impl Track {
         self.gap_s = 0.0;
         self.last_psi = psi;
         self.last = x.lower;
+        self.last_noise = sn;
         self.last_t = x.t_s;
         if self.hist.is_full() {
             let _ = self.hist.pop_front();
@@ -623,14 +636,25 @@ impl Track {
             return;
         }
         let nf = n as f32;
-        let (mp, ml) = (zone().map(|h| h.phi).sum::<f32>() / nf, zone().map(|h| h.l).sum::<f32>() / nf);
-        let (spp, spl) = zone().fold((0.0f32, 0.0f32), |(a, b), h| (a + (h.phi - mp) * (h.phi - mp), b + (h.phi - mp) * (h.l - ml)));
+        // ln|B| less the level dipole's along shape ln f(u, 0) = ½ln(4u² + 1) − 2ln(u² + 1)
+        // (flat to fourth order at u = 0); what is left of a pitched sonde's lopsided peak is
+        // nearly linear in Φ across the zone.
+        let parity = if self.evidence >= 0.0 { 0.0 } else { core::f32::consts::PI };
+        let flat = |h: &Sample| {
+            let (u, _) = u_of_phi(h.phi + parity);
+            h.l - (0.5 * libm::logf(4.0 * u * u + 1.0) - 2.0 * libm::logf(u * u + 1.0))
+        };
+        let (mp, ml) = (zone().map(|h| h.phi).sum::<f32>() / nf, zone().map(flat).sum::<f32>() / nf);
+        let (spp, spl) = zone().fold((0.0f32, 0.0f32), |(a, b), h| (a + (h.phi - mp) * (h.phi - mp), b + (h.phi - mp) * (flat(h) - ml)));
         let slope = if spp > 0.0025 * nf { spl / spp } else { 0.0 };
-        let resid = libm::sqrtf(zone().map(|h| (h.l - ml - slope * (h.phi - mp)) * (h.l - ml - slope * (h.phi - mp))).sum::<f32>() / nf);
+        let resid =
+            libm::sqrtf(zone().map(|h| (flat(h) - ml - slope * (h.phi - mp)) * (flat(h) - ml - slope * (h.phi - mp))).sum::<f32>() / nf);
         let [a, b, c] = x.lower;
         let mag2 = (a * a + b * b + c * c).max(1e-30);
-        let sigma_l = libm::sqrtf((a * x.sigma[0]) * (a * x.sigma[0]) + (b * x.sigma[1]) * (b * x.sigma[1]) + (c * x.sigma[2]) * (c * x.sigma[2])) / mag2;
-        let deficit = ml + slope * (now.phi - mp) - now.l;
+        let sigma_l =
+            libm::sqrtf((a * x.sigma[0]) * (a * x.sigma[0]) + (b * x.sigma[1]) * (b * x.sigma[1]) + (c * x.sigma[2]) * (c * x.sigma[2]))
+                / mag2;
+        let deficit = ml + slope * (now.phi - mp) - flat(&now);
         if deficit > 3.0 * (resid + sigma_l) + 0.003 {
             let eta_obs = libm::sqrtf(deficit / 1.5);
             self.q = 0.0;
