@@ -8,15 +8,20 @@
 //! * both, as the commands run them (`run::simulate`, readout rows with the truth),
 //!
 //! then a table of each as a multiple of real time and the ratio of synthesis
-//! to receiver time, from the same measurements.
+//! to receiver time, from the same measurements. A last group times the normal
+//! draws of the noise source against the ChaCha8 bits the simulator used before.
 //! Run: `cargo bench -p undertone-sim --bench simulate`.
 
 use criterion::{BenchmarkId, Criterion, Throughput};
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, StandardNormal};
 use std::collections::BTreeMap;
 use std::hint::black_box;
 use std::sync::Mutex;
 use std::time::{Duration, Instant};
 use undertone_dsp::{Head, Receiver};
+use undertone_sim::noise::Gaussian;
 use undertone_sim::run::{receiver_settings, simulate};
 use undertone_sim::scenario::Scenario;
 use undertone_sim::synth::Synth;
@@ -48,7 +53,7 @@ speed_m_s = 0.4
 const SECONDS: f64 = 60.0;
 const SAMPLES: usize = 10;
 
-/// Per (head, workload): the time per iteration of each measured sample, s.
+/// Per (head, workload): the time per iteration of each measured sample, s (head 0: the noise group).
 static TIMES: Mutex<BTreeMap<(usize, &'static str), Vec<f64>>> = Mutex::new(BTreeMap::new());
 
 fn record(coils: usize, what: &'static str, iters: u64, d: Duration) -> Duration {
@@ -177,10 +182,53 @@ fn summary() {
     }
 }
 
+/// Normal draws per iteration of the noise-source group.
+const DRAWS: usize = 1 << 20;
+
+fn bench_noise(c: &mut Criterion) {
+    let mut g = c.benchmark_group("normal draws");
+    g.sample_size(20);
+    g.warm_up_time(Duration::from_secs(1));
+    g.throughput(Throughput::Elements(DRAWS as u64));
+    let mut buf = vec![0.0f64; DRAWS];
+    g.bench_function("xoshiro256++ bits, rand_distr ziggurat (the simulator's)", |b| {
+        let mut n = Gaussian::from_seed(1);
+        b.iter_custom(|iters| {
+            let t = Instant::now();
+            for _ in 0..iters {
+                n.fill_scaled(&mut buf, 1.0);
+                black_box(&buf);
+            }
+            record(0, "xoshiro", iters, t.elapsed())
+        })
+    });
+    g.bench_function("ChaCha8 bits, rand_distr ziggurat", |b| {
+        let mut rng = ChaCha8Rng::seed_from_u64(1);
+        b.iter_custom(|iters| {
+            let t = Instant::now();
+            for _ in 0..iters {
+                for x in buf.iter_mut() {
+                    *x = StandardNormal.sample(&mut rng);
+                }
+                black_box(&buf);
+            }
+            record(0, "chacha", iters, t.elapsed())
+        })
+    });
+    g.finish();
+    let t = TIMES.lock().unwrap_or_else(|e| e.into_inner());
+    for (w, name) in [("xoshiro", "xoshiro256++"), ("chacha", "ChaCha8")] {
+        if let Some(v) = t.get(&(0, w)).filter(|v| !v.is_empty()) {
+            println!("normal draw, {name} bits: {:.2} ns", median(v) / DRAWS as f64 * 1e9);
+        }
+    }
+}
+
 fn main() {
     let mut c = Criterion::default().configure_from_args();
     bench_head::<4>(&mut c, "reference4", Head::reference4());
     bench_head::<6>(&mut c, "triads6", Head::triads6());
-    c.final_summary();
     summary();
+    bench_noise(&mut c);
+    c.final_summary();
 }

@@ -185,21 +185,18 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
         },
     )?);
     let mut lag_series = series("peak lag, m", &|r| r.lag_m, RGBColor(44, 160, 44)).into_iter().collect::<Vec<_>>();
-    lag_series.extend([
-        Series { name: "99 % settling, s".into(), points: pts(&|r| Some(r.settle_s)), color: RGBColor(148, 103, 189), dots: false },
-        Series {
-            name: format!("lag limit +{max_lag_m} m"),
-            points: rows.iter().map(|r| (r.bandwidth_hz, max_lag_m)).collect(),
-            color: RGBColor(120, 120, 120),
-            dots: false,
-        },
-        Series {
-            name: format!("lag limit -{max_lag_m} m"),
-            points: rows.iter().map(|r| (r.bandwidth_hz, -max_lag_m)).collect(),
-            color: RGBColor(190, 190, 190),
-            dots: false,
-        },
-    ]);
+    lag_series.push(Series {
+        name: "99 % settling, s".into(),
+        points: pts(&|r| Some(r.settle_s)),
+        color: RGBColor(148, 103, 189),
+        dots: false,
+    });
+    lag_series.extend([(1.0, RGBColor(120, 120, 120)), (-1.0, RGBColor(190, 190, 190))].map(|(sign, color)| Series {
+        name: format!("lag limit {:+} m", sign * max_lag_m),
+        points: rows.iter().map(|r| (r.bandwidth_hz, sign * max_lag_m)).collect(),
+        color,
+        dots: false,
+    }));
     files.extend(line_chart(
         &out_dir.join("sweep-lag"),
         &Chart {
