@@ -10,8 +10,12 @@
 //! then a table of each as a multiple of real time and the ratio of synthesis
 //! to receiver time, from the same measurements. A last group times the normal
 //! draws of the noise source against the ChaCha8 bits the simulator used before.
+//! Times are the benchmark thread's CPU time (`cpu-time`, the kernel's
+//! per-thread clock), so other work on a shared machine does not count; on an
+//! idle machine they equal the wall-clock time.
 //! Run: `cargo bench -p undertone-sim --bench simulate`.
 
+use cpu_time::ThreadTime;
 use criterion::{BenchmarkId, Criterion, Throughput};
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
@@ -19,7 +23,7 @@ use rand_distr::{Distribution, StandardNormal};
 use std::collections::BTreeMap;
 use std::hint::black_box;
 use std::sync::Mutex;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 use undertone_dsp::{Head, Receiver};
 use undertone_sim::noise::Gaussian;
 use undertone_sim::run::{receiver_settings, simulate};
@@ -122,7 +126,7 @@ fn bench_head<const N: usize>(c: &mut Criterion, head_name: &str, head: Head<N>)
     let label = |what: &str| BenchmarkId::new(format!("60 s walk, {N} coils at 48 kHz"), what);
     g.bench_function(label("synthesis"), |b| {
         b.iter_custom(|iters| {
-            let t = Instant::now();
+            let t = ThreadTime::now();
             for _ in 0..iters {
                 black_box(synthesise(black_box(&sc)));
             }
@@ -131,7 +135,7 @@ fn bench_head<const N: usize>(c: &mut Criterion, head_name: &str, head: Head<N>)
     });
     g.bench_function(label("synthesis, posed blocks"), |b| {
         b.iter_custom(|iters| {
-            let t = Instant::now();
+            let t = ThreadTime::now();
             for _ in 0..iters {
                 black_box(synthesise_posed::<N>(black_box(&sc)));
             }
@@ -140,7 +144,7 @@ fn bench_head<const N: usize>(c: &mut Criterion, head_name: &str, head: Head<N>)
     });
     g.bench_function(label("receiver"), |b| {
         b.iter_custom(|iters| {
-            let t = Instant::now();
+            let t = ThreadTime::now();
             for _ in 0..iters {
                 black_box(receive::<N>(&sc, head, black_box(&data)));
             }
@@ -149,7 +153,7 @@ fn bench_head<const N: usize>(c: &mut Criterion, head_name: &str, head: Head<N>)
     });
     g.bench_function(label("synthesis + receiver"), |b| {
         b.iter_custom(|iters| {
-            let t = Instant::now();
+            let t = ThreadTime::now();
             for _ in 0..iters {
                 black_box(simulate(black_box(&sc), None, None).unwrap().rows.len());
             }
@@ -168,7 +172,7 @@ fn median(v: &[f64]) -> f64 {
 
 fn summary() {
     let t = TIMES.lock().unwrap_or_else(|e| e.into_inner());
-    println!("\nSimulator throughput, one core, {SECONDS} s of signal (median of criterion's samples):");
+    println!("\nSimulator throughput, one core (thread CPU time), {SECONDS} s of signal (median of criterion's samples):");
     println!(
         "{:>7} | {:>20} | {:>20} | {:>20} | {:>20} | {:>18}",
         "head", "synthesis", "posed synthesis", "receiver", "both", "synthesis/receiver"
@@ -194,7 +198,7 @@ fn bench_noise(c: &mut Criterion) {
     g.bench_function("xoshiro256++ bits, rand_distr ziggurat (the simulator's)", |b| {
         let mut n = Gaussian::from_seed(1);
         b.iter_custom(|iters| {
-            let t = Instant::now();
+            let t = ThreadTime::now();
             for _ in 0..iters {
                 n.fill_scaled(&mut buf, 1.0);
                 black_box(&buf);
@@ -205,7 +209,7 @@ fn bench_noise(c: &mut Criterion) {
     g.bench_function("ChaCha8 bits, rand_distr ziggurat", |b| {
         let mut rng = ChaCha8Rng::seed_from_u64(1);
         b.iter_custom(|iters| {
-            let t = Instant::now();
+            let t = ThreadTime::now();
             for _ in 0..iters {
                 for x in buf.iter_mut() {
                     *x = StandardNormal.sample(&mut rng);

@@ -105,7 +105,7 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
             f_opt(ci.map(|c| c.hi), 6),
             c(r.depth_bias_pct),
             c(r.depth_scatter_pct),
-            r.settle_s,
+            f_opt(Some(r.settle_s), 6),
             c(r.lag_m),
             c(Some(r.false_peak_rate)),
             match r.verdict() {

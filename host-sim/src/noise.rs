@@ -11,9 +11,10 @@
 //!   (Doornik, "An improved ziggurat method to generate normal random
 //!   samples", 2005): 256 layers, the tail beyond R = 3.6542 drawn exactly.
 //!
-//! Measured on the development machine (see BENCHMARKS.md): 2.6 ns a draw
-//! against 3.9 ns with ChaCha8 bits and the same ziggurat; the draw is the
-//! largest single cost of synthesis, which is why the faster bit source won.
+//! Measured by `cargo bench -p undertone-sim --bench simulate` (BENCHMARKS.md):
+//! 2.2 ns a draw against 3.8 ns with ChaCha8 bits and the same ziggurat; the
+//! draw is the largest single cost of synthesis, which is why the faster bit
+//! source won.
 //! Its moments and tails are checked against the normal distribution in
 //! `host-sim/tests/noise.rs`.
 

@@ -458,9 +458,9 @@ impl Synth {
     /// Render `len` frames (interleaved into `out`) from the current sample,
     /// all between the knots `lo` and `hi`, and advance.
     ///
-    /// Real-time budget: at 48 kSPS a channel must cost well under 20 µs/ms of
-    /// signal; per channel-sample this does two multiply-adds per tone, one
-    /// for the mains, one normal draw and a rounding (≈ 4 ns measured).
+    /// Budget: per channel-sample two multiply-adds per tone, one for the
+    /// mains, one normal draw and a rounding; about 5 ns all told (1000× real
+    /// time for 4 coils at 48 kSPS, BENCHMARKS.md).
     fn render_span(&mut self, out: &mut [i32], len: usize) {
         let nc = self.coils;
         let (lo, hi) = (&self.lo, &self.hi);
