@@ -76,7 +76,8 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Monte Carlo over noise seeds for each detection bandwidth.
+    /// Monte Carlo over noise seeds for each detection bandwidth, with 95 % confidence intervals;
+    /// recommends a bandwidth only when the intervals decide it.
     Sweep {
         /// Scenario TOML file.
         scenario: PathBuf,

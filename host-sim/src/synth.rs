@@ -535,9 +535,7 @@ impl Synth {
         let mut w = 0;
         while self.n < end {
             if self.path != KnotPath::Scenario {
-                let mut lo = std::mem::replace(&mut self.lo, Knot::new(0, 0));
-                self.eval_knot(self.motion.pose(self.n as f64 / self.fs), self.n, &mut lo);
-                self.lo = lo;
+                self.set_knot(false, self.motion.pose(self.n as f64 / self.fs), self.n);
                 self.advance_grid_knot();
                 self.path = KnotPath::Scenario;
             } else if self.n == self.hi.n {
@@ -554,9 +552,21 @@ impl Synth {
     /// Put the knot of the next control point after `lo` into `hi` (scenario motion).
     fn advance_grid_knot(&mut self) {
         let g = (self.lo.n / self.ctrl + 1) * self.ctrl;
-        let mut hi = std::mem::replace(&mut self.hi, Knot::new(0, 0));
-        self.eval_knot(self.motion.pose(g as f64 / self.fs), g, &mut hi);
-        self.hi = hi;
+        self.set_knot(true, self.motion.pose(g as f64 / self.fs), g);
+    }
+
+    /// Evaluate the knot at sample `n` with the receiver at `pose` into `hi` (or `lo`).
+    fn set_knot(&mut self, hi: bool, pose: Pose, n: u64) {
+        fn slot(s: &mut Synth, hi: bool) -> &mut Knot {
+            if hi {
+                &mut s.hi
+            } else {
+                &mut s.lo
+            }
+        }
+        let mut k = std::mem::replace(slot(self, hi), Knot::new(0, 0));
+        self.eval_knot(pose, n, &mut k);
+        *slot(self, hi) = k;
     }
 
     /// The next frame of codes into `out` (its first `coils` entries). False at the end.
@@ -610,17 +620,13 @@ impl Synth {
         if self.path == KnotPath::Posed && self.hi.n == n0 && self.hi.pose == pose_start {
             std::mem::swap(&mut self.lo, &mut self.hi);
         } else {
-            let mut lo = std::mem::replace(&mut self.lo, Knot::new(0, 0));
-            self.eval_knot(pose_start, n0, &mut lo);
-            self.lo = lo;
+            self.set_knot(false, pose_start, n0);
         }
         self.path = KnotPath::Posed;
         let mut w = 0;
         while self.n < n1 {
             let kn = ((self.n / self.ctrl + 1) * self.ctrl).min(n1);
-            let mut hi = std::mem::replace(&mut self.hi, Knot::new(0, 0));
-            self.eval_knot(if kn == n1 { pose_end } else { pose_at(kn) }, kn, &mut hi);
-            self.hi = hi;
+            self.set_knot(true, if kn == n1 { pose_end } else { pose_at(kn) }, kn);
             let len = (kn - self.n) as usize;
             self.render_span(&mut out[w * nc..], len);
             w += len;
