@@ -6,113 +6,204 @@ use crate::output::{folder, write_atomic};
 use crate::plots::{heatmap, line_chart, Chart, Heatmap, Series};
 use crate::report::CAUTIONS;
 use crate::scenario::Scenario;
-use crate::sweep::{recommend, sweep as run_sweep};
+use crate::sweep::{
+    recommend, sweep as run_sweep, Figure, Recommendation, Standing, SweepRow, SweepSpec, CRITERIA, DEFAULT_TRIALS, FEW_TRIALS,
+    MAX_DEPTH_BIAS_PCT, MAX_FALSE_PEAK_RATE, MIN_DEPTH_RATE,
+};
 use plotters::style::RGBColor;
-use std::io::{IsTerminal, Write};
+use std::io::Write;
 use std::path::Path;
 
 fn io(e: std::io::Error) -> SimError {
     SimError::io(Path::new("<stdout>"), "write", e)
 }
 
-fn f(v: Option<f64>, p: usize) -> String {
-    v.map(|v| format!("{v:.p$}")).unwrap_or_else(|| "--".into())
+fn fig(f: Option<Figure>, p: usize, sign: bool) -> String {
+    let v = |x: f64| if sign { format!("{x:+.p$}") } else { format!("{x:.p$}") };
+    match f {
+        Some(Figure { value, ci: Some(ci) }) => format!("{} [{}, {}]", v(value), v(ci.lo), v(ci.hi)),
+        Some(Figure { value, ci: None }) => format!("{} [--]", v(value)),
+        None => "--".into(),
+    }
 }
 
-/// `sweep`.
-pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, out_dir: &Path, out: &mut dyn Write) -> Result<()> {
-    let rows = run_sweep(sc, bandwidths, trials, std::io::stderr().is_terminal())?;
-    writeln!(out, "Bandwidth sweep: {} ({} trials per bandwidth, {} threads)", sc.name, trials, rayon::current_num_threads())
+fn pct(f: Figure) -> String {
+    match f.ci {
+        Some(ci) => format!("{:.0} [{:.0}, {:.0}]", 100.0 * f.value, 100.0 * ci.lo, 100.0 * ci.hi),
+        None => format!("{:.0}", 100.0 * f.value),
+    }
+}
+
+fn standing(s: Standing) -> String {
+    match s {
+        Standing::Meets => "meets".into(),
+        Standing::Fails => "fails".into(),
+        Standing::Unsure(Some(n)) => format!("unsure (~{n} trials)"),
+        Standing::Unsure(None) => "unsure".into(),
+    }
+}
+
+/// `sweep`: the table with 95 % intervals, each bandwidth's standing, the
+/// recommendation (or why there is none yet), the CSV and the plots.
+/// `out` carries the report; warnings go to stderr.
+pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Write) -> Result<()> {
+    if spec.trials < FEW_TRIALS {
+        eprintln!(
+            "undertone: warning: --trials {} is below {FEW_TRIALS}: the 95 % intervals will be too wide to decide much (default {DEFAULT_TRIALS})",
+            spec.trials
+        );
+    }
+    let started = std::time::Instant::now();
+    let rows = run_sweep(sc, spec)?;
+    eprintln!(
+        "undertone: sweep of {} runs took {:.1} s on {} threads",
+        rows.len() * spec.trials,
+        started.elapsed().as_secs_f64(),
+        rayon::current_num_threads()
+    );
+    let max_lag_m = spec.max_lag_m;
+    writeln!(out, "Bandwidth sweep: {} ({} trials per bandwidth, noise seeds from seed {})", sc.name, spec.trials, spec.seed)
         .map_err(io)?;
+    writeln!(out, "Each figure: estimate [95 % confidence interval] over the trials.").map_err(io)?;
     writeln!(
         out,
-        "{:>10} {:>7} {:>11} {:>13} {:>9} {:>9} {:>11}",
-        "bw Hz", "depth", "bias %", "scatter %", "settle s", "lag m", "false peak"
+        "{:>8} {:>16} {:>24} {:>22} {:>8} {:>27} {:>16}",
+        "bw Hz", "depth found %", "depth bias %", "depth scatter %", "settle s", "peak lag m", "false peaks %"
     )
     .map_err(io)?;
-    let mut csv = String::from("bandwidth_hz,trials,with_depth,depth_bias_pct,depth_scatter_pct,settle_s,lag_m,false_peak_rate\n");
+    let mut csv = String::from(
+        "bandwidth_hz,trials,with_depth,depth_found_lo,depth_found_hi,depth_bias_pct,depth_bias_lo,depth_bias_hi,\
+         depth_scatter_pct,depth_scatter_lo,depth_scatter_hi,settle_s,lag_m,lag_lo,lag_hi,false_peak_rate,false_peak_lo,false_peak_hi,verdict\n",
+    );
+    let c = |f: Option<Figure>| {
+        let (v, lo, hi) = match f {
+            Some(f) => (Some(f.value), f.ci.map(|c| c.lo), f.ci.map(|c| c.hi)),
+            None => (None, None, None),
+        };
+        format!("{},{},{}", f_opt(v, 6), f_opt(lo, 6), f_opt(hi, 6))
+    };
     for r in &rows {
         writeln!(
             out,
-            "{:>10.3} {:>3}/{:<3} {:>11} {:>13} {:>9.2} {:>9} {:>11.2}",
+            "{:>8.3} {:>16} {:>24} {:>22} {:>8.2} {:>27} {:>16}",
             r.bandwidth_hz,
-            r.with_depth,
-            r.trials,
-            f(r.depth_bias_pct, 2),
-            f(r.depth_scatter_pct, 2),
+            pct(r.depth_rate),
+            fig(r.depth_bias_pct, 2, true),
+            fig(r.depth_scatter_pct, 2, false),
             r.settle_s,
-            f(r.lag_m, 3),
-            r.false_peak_rate
+            fig(r.lag_m, 3, true),
+            pct(r.false_peak_rate),
         )
         .map_err(io)?;
+        let ci = r.depth_rate.ci;
         csv += &format!(
-            "{},{},{},{},{},{},{},{}\n",
+            "{},{},{},{},{},{},{},{},{},{},{}\n",
             r.bandwidth_hz,
             r.trials,
             r.with_depth,
-            f(r.depth_bias_pct, 4),
-            f(r.depth_scatter_pct, 4),
-            r.settle_s,
-            f(r.lag_m, 4),
-            r.false_peak_rate
+            f_opt(ci.map(|c| c.lo), 6),
+            f_opt(ci.map(|c| c.hi), 6),
+            c(r.depth_bias_pct),
+            c(r.depth_scatter_pct),
+            f_opt(Some(r.settle_s), 6),
+            c(r.lag_m),
+            c(Some(r.false_peak_rate)),
+            match r.verdict() {
+                Standing::Meets => "meets",
+                Standing::Fails => "fails",
+                Standing::Unsure(_) => "unsure",
+            },
         );
     }
-    match recommend(&rows, max_lag_m) {
-        Some(b) => writeln!(
+    writeln!(
+        out,
+        "\nCriteria: |peak lag| within {max_lag_m} m, false peaks in at most {:.0} % of trials, a depth in at least {:.0} % of them, depth bias within ±{} %.",
+        100.0 * MAX_FALSE_PEAK_RATE,
+        100.0 * MIN_DEPTH_RATE,
+        MAX_DEPTH_BIAS_PCT
+    )
+    .map_err(io)?;
+    writeln!(out, "A bandwidth meets a criterion when the whole interval is inside the limit, fails when it is wholly outside.")
+        .map_err(io)?;
+    write!(out, "{:>8}", "bw Hz").map_err(io)?;
+    for name in CRITERIA {
+        write!(out, " {:>20}", name).map_err(io)?;
+    }
+    writeln!(out, " {:>20}", "overall").map_err(io)?;
+    for r in &rows {
+        write!(out, "{:>8.3}", r.bandwidth_hz).map_err(io)?;
+        for s in r.standing {
+            write!(out, " {:>20}", standing(s)).map_err(io)?;
+        }
+        writeln!(out, " {:>20}", standing(r.verdict())).map_err(io)?;
+    }
+    match recommend(&rows) {
+        Recommendation::Bandwidth(b) => writeln!(
             out,
-            "recommended: {b} Hz, the narrowest bandwidth with peak lag within {max_lag_m} m, false peaks in at most {:.0} % of trials, a depth in at least half of them and depth bias within ±{} %",
-            100.0 * crate::sweep::MAX_FALSE_PEAK_RATE,
-            crate::sweep::MAX_DEPTH_BIAS_PCT
+            "recommended: {b} Hz, the narrowest bandwidth whose intervals meet every criterion, every narrower one failing at least one"
         )
         .map_err(io)?,
-        None => writeln!(out, "no bandwidth keeps the peak lag within {max_lag_m} m with few false peaks and a small depth bias; try other bandwidths or a slower walk").map_err(io)?,
+        Recommendation::None => {
+            writeln!(out, "no bandwidth meets the criteria (every one fails at least one); try other bandwidths or a slower walk")
+                .map_err(io)?
+        }
+        Recommendation::Undecided(b, n) => {
+            let need = match n {
+                Some(n) => format!("about {n} trials per bandwidth (--trials {n}) would decide it, if the figures stay as measured"),
+                None => "its figures sit too close to a limit for any practical number of trials to decide".into(),
+            };
+            writeln!(out, "no bandwidth recommended yet: the intervals of {b} Hz, the narrowest one not failing, straddle a limit; {need}")
+                .map_err(io)?
+        }
     }
     folder(out_dir)?;
     let csv_path = out_dir.join("sweep.csv");
     write_atomic(&csv_path, csv.as_bytes())?;
-    let pts = |g: &dyn Fn(&crate::sweep::SweepRow) -> Option<f64>| {
-        rows.iter().filter_map(|r| g(r).map(|v| (r.bandwidth_hz, v))).collect::<Vec<_>>()
+    let pts = |g: &dyn Fn(&SweepRow) -> Option<f64>| rows.iter().filter_map(|r| g(r).map(|v| (r.bandwidth_hz, v))).collect::<Vec<_>>();
+    let lo = |f: Option<Figure>| f.and_then(|f| f.ci).map(|c| c.lo);
+    let hi = |f: Option<Figure>| f.and_then(|f| f.ci).map(|c| c.hi);
+    let val = |f: Option<Figure>| f.map(|f| f.value);
+    let series = |name: &str, g: &dyn Fn(&SweepRow) -> Option<Figure>, color: RGBColor| {
+        let mut ends = pts(&|r| lo(g(r)));
+        ends.extend(pts(&|r| hi(g(r))));
+        [
+            Series { name: name.into(), points: pts(&|r| val(g(r))), color, dots: false },
+            Series { name: format!("{name}: 95 % interval ends"), points: ends, color, dots: true },
+        ]
     };
     let mut files = vec![csv_path];
+    let mut depth_series = series("bias (mean of trials)", &|r| r.depth_bias_pct, RGBColor(214, 39, 40)).into_iter().collect::<Vec<_>>();
+    depth_series.extend(series("scatter (sd of trials)", &|r| r.depth_scatter_pct, RGBColor(31, 119, 180)));
     files.extend(line_chart(
         &out_dir.join("sweep-depth"),
         &Chart {
             title: format!("{}: depth error against bandwidth", sc.name),
             x_label: "detection bandwidth (Hz)".into(),
             y_label: "depth error (%)".into(),
-            series: vec![
-                Series {
-                    name: "bias (mean of trials)".into(),
-                    points: pts(&|r| r.depth_bias_pct),
-                    color: RGBColor(214, 39, 40),
-                    dots: false,
-                },
-                Series {
-                    name: "scatter (sd of trials)".into(),
-                    points: pts(&|r| r.depth_scatter_pct),
-                    color: RGBColor(31, 119, 180),
-                    dots: false,
-                },
-            ],
+            series: depth_series,
             y_range: None,
         },
     )?);
+    let mut lag_series = series("peak lag, m", &|r| r.lag_m, RGBColor(44, 160, 44)).into_iter().collect::<Vec<_>>();
+    lag_series.push(Series {
+        name: "99 % settling, s".into(),
+        points: pts(&|r| Some(r.settle_s)),
+        color: RGBColor(148, 103, 189),
+        dots: false,
+    });
+    lag_series.extend([(1.0, RGBColor(120, 120, 120)), (-1.0, RGBColor(190, 190, 190))].map(|(sign, color)| Series {
+        name: format!("lag limit {:+} m", sign * max_lag_m),
+        points: rows.iter().map(|r| (r.bandwidth_hz, sign * max_lag_m)).collect(),
+        color,
+        dots: false,
+    }));
     files.extend(line_chart(
         &out_dir.join("sweep-lag"),
         &Chart {
             title: format!("{}: peak lag and settling against bandwidth", sc.name),
             x_label: "detection bandwidth (Hz)".into(),
             y_label: "lag (m) / settling (s)".into(),
-            series: vec![
-                Series { name: "peak lag, m".into(), points: pts(&|r| r.lag_m), color: RGBColor(44, 160, 44), dots: false },
-                Series { name: "99 % settling, s".into(), points: pts(&|r| Some(r.settle_s)), color: RGBColor(148, 103, 189), dots: false },
-                Series {
-                    name: format!("lag limit {max_lag_m} m"),
-                    points: rows.iter().map(|r| (r.bandwidth_hz, max_lag_m)).collect(),
-                    color: RGBColor(120, 120, 120),
-                    dots: false,
-                },
-            ],
+            series: lag_series,
             y_range: None,
         },
     )?);
@@ -122,6 +213,10 @@ pub fn sweep(sc: &Scenario, bandwidths: &[f64], trials: usize, max_lag_m: f64, o
     }
     writeln!(out, "\n{CAUTIONS}").map_err(io)?;
     Ok(())
+}
+
+fn f_opt(v: Option<f64>, p: usize) -> String {
+    v.map(|v| format!("{v:.p$}")).unwrap_or_default()
 }
 
 /// `depthcheck`.

@@ -2,11 +2,11 @@
 //! through the same `undertone-dsp` pipeline the firmware runs.
 //!
 //! * [`scenario`]: what is buried and how the receiver moves (TOML).
-//! * [`physics`], [`motion`], [`synth`]: the synthetic ADC stream.
+//! * [`physics`], [`motion`], [`noise`], [`synth`]: the synthetic ADC stream.
 //! * [`run`]: the receiver on that stream, readouts beside the truth.
 //! * [`report`], [`plots`]: tables, summaries, cautions, PNG/SVG plots.
 //! * [`wav`]: recordings in and out.
-//! * [`sweep`], [`depthcheck`], [`map`]: the analysis commands.
+//! * [`sweep`], [`depthcheck`], [`map`]: the analysis commands; [`stats`]: their confidence intervals.
 
 pub mod commands;
 pub mod depthcheck;
@@ -15,6 +15,7 @@ pub mod error;
 pub mod headfile;
 pub mod map;
 pub mod motion;
+pub mod noise;
 pub mod output;
 pub mod physics;
 pub mod plots;
@@ -23,6 +24,7 @@ pub mod report;
 pub mod run;
 pub mod scenario;
 pub mod score;
+pub mod stats;
 pub mod sweep;
 pub mod synth;
 pub mod walk;

@@ -1,7 +1,7 @@
 //! `undertone`: the Undertone receiver on a PC.
 
 use clap::{Parser, Subcommand};
-use std::io::Write;
+use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use undertone_sim::depthcheck::HeadChoice;
@@ -76,16 +76,20 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Monte Carlo over noise seeds for each detection bandwidth.
+    /// Monte Carlo over noise seeds for each detection bandwidth, with 95 % confidence intervals;
+    /// recommends a bandwidth only when the intervals decide it.
     Sweep {
         /// Scenario TOML file.
         scenario: PathBuf,
         /// Bandwidths to try, Hz, comma-separated.
         #[arg(long, value_delimiter = ',', required = true)]
         bandwidths: Vec<f64>,
-        /// Trials (noise seeds) per bandwidth.
-        #[arg(long, default_value_t = 8)]
+        /// Trials (noise seeds) per bandwidth; below 20 the 95 % intervals are too wide to decide much.
+        #[arg(long, default_value_t = undertone_sim::sweep::DEFAULT_TRIALS)]
         trials: usize,
+        /// Seed of the trials' noise seeds (default: the scenario's seed).
+        #[arg(long)]
+        seed: Option<u64>,
         /// Largest acceptable peak lag, m.
         #[arg(long, default_value_t = 0.2)]
         max_lag_m: f64,
@@ -141,12 +145,22 @@ fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
             )?;
             undertone_sim::replay::print(out, &rows, json)
         }
-        Command::Sweep { scenario, bandwidths, trials, max_lag_m, output } => {
+        Command::Sweep { scenario, bandwidths, trials, seed, max_lag_m, output } => {
             if trials == 0 || trials > 10_000 {
                 return Err(SimError::Arg { name: "--trials".into(), msg: format!("{trials} is not allowed (allowed 1 to 10000)") });
             }
+            if !(max_lag_m.is_finite() && max_lag_m > 0.0) {
+                return Err(SimError::Arg { name: "--max-lag-m".into(), msg: format!("{max_lag_m} is not allowed (allowed above 0)") });
+            }
             let sc = Scenario::load(&scenario)?;
-            undertone_sim::commands::sweep(&sc, &bandwidths, trials, max_lag_m, &output, out)
+            let spec = undertone_sim::sweep::SweepSpec {
+                bandwidths: &bandwidths,
+                trials,
+                seed: seed.unwrap_or(sc.seed),
+                max_lag_m,
+                progress: std::io::stderr().is_terminal(),
+            };
+            undertone_sim::commands::sweep(&sc, &spec, &output, out)
         }
         Command::Depthcheck { head, snr_db, output } => {
             if !(snr_db.is_finite() && (10.0..=120.0).contains(&snr_db)) {

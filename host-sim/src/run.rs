@@ -262,9 +262,18 @@ pub struct SimRun {
 
 /// Run a scenario (optionally with another noise seed and bandwidth).
 pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> Result<SimRun> {
+    let mut rows = Vec::new();
+    let mut run = simulate_each(sc, seed, bandwidth_hz, &mut |r| rows.push(r))?;
+    run.rows = rows;
+    Ok(run)
+}
+
+/// Run a scenario, handing each readout row to `on` as it is made and keeping
+/// none (the returned run's `rows` is empty): memory stays flat however long the run.
+pub fn simulate_each(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>, on: &mut dyn FnMut(Row)) -> Result<SimRun> {
     match sc.coils() {
-        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz),
-        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz),
+        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, on),
+        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, on),
     }
 }
 
@@ -283,19 +292,27 @@ pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth
     s
 }
 
-fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, bw: Option<f32>) -> Result<SimRun> {
+/// Frames synthesised and fed to the receiver at a time. Any length gives the
+/// same readouts: the synthesis and the receiver are both independent of how
+/// the stream is cut, so a walk equals the replay of its recording.
+const CHUNK_FRAMES: usize = 1024;
+
+fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, bw: Option<f32>, on: &mut dyn FnMut(Row)) -> Result<SimRun> {
     let s = receiver_settings(sc, head, bw);
     let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let mut synth = Synth::new(sc, seed);
-    let mut rows = Vec::new();
-    let mut frame = [0i32; N];
-    while synth.next_codes(&mut frame) {
-        if let Some(r) = rx.push_codes(&frame) {
-            let shown = r.sample_index as f64 / synth.fs;
-            rows.push(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown)))));
+    let mut block = vec![[0i32; N]; CHUNK_FRAMES];
+    loop {
+        let got = synth.fill_codes(&mut block);
+        if got == 0 {
+            break;
         }
+        rx.push_codes_block(&block[..got], |r| {
+            let shown = r.sample_index as f64 / synth.fs;
+            on(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown)))))
+        });
     }
-    Ok(SimRun { rows, info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position() })
+    Ok(SimRun { rows: Vec::new(), info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position() })
 }
 
 /// Run the receiver on recorded frames (codes), no truth.

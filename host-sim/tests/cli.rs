@@ -126,6 +126,10 @@ fn synth_then_replay_reproduces_walk() {
         let rep = json_lines(&stdout(&o));
         assert_eq!(rep.len(), walk.len(), "{fmt}");
         let mut depths = 0;
+        // The two runs scale their inputs differently (tesla against full scale) in f32, so
+        // a reading near a null of the horizontal field, made by cancellation, differs by a few
+        // ulps of the largest reading rather than of its own size.
+        let peak = walk.iter().filter_map(|a| a["strength"].as_f64()).fold(0.0, f64::max);
         for (a, b) in walk.iter().zip(&rep) {
             for k in ["t_s", "strength", "strength_db", "depth_m", "depth_sigma_m", "bearing_deg", "state", "flags"] {
                 assert!(b.get(k).is_some(), "{fmt}: replay line lacks {k}");
@@ -134,7 +138,7 @@ fn synth_then_replay_reproduces_walk() {
             // Strength: walk in tesla, replay in full-scale units (full scale = 5e-7 T).
             let (sa, sb) = (a["strength"].as_f64().unwrap(), b["strength"].as_f64().unwrap() * 5e-7);
             let tol = if exact { 1e-5 } else { 1e-2 };
-            assert!((sa - sb).abs() <= tol * sa.max(1e-15), "{fmt}: strength {sa} vs {sb}");
+            assert!((sa - sb).abs() <= tol * sa.max(1e-2 * peak), "{fmt}: strength {sa} vs {sb}");
             if exact {
                 assert_eq!(a["state"], b["state"]);
                 assert_eq!(a["depth_m"].is_null(), b["depth_m"].is_null(), "{fmt} at {}", a["t_s"]);
