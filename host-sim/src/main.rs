@@ -117,6 +117,38 @@ enum Command {
         #[arg(long, short, default_value = "undertone-out/map")]
         output: PathBuf,
     },
+    /// The receiver in closed loop: a simulated operator, from random starts, does only what
+    /// the receiver tells them until it says "over" and shows a depth.
+    ///
+    /// The operator's procedure, each readout: "wait": stand still; "turn in line": turn on the
+    /// spot toward the field (30°/s) until the bearing reads within 5°; "walk along": walk forward
+    /// along the handle at 0.3 m/s keeping the heading, back after 3 m without an answer;
+    /// "walk ahead"/"walk back": walk that way at 0.3 m/s, 0.1 m/s within 0.3 m of the point
+    /// shown; "sweep along": 0.3 m forward and back at 0.2 m/s; "step left"/"step right": step
+    /// sideways the distance shown at 0.2 m/s, then sweep along; "hold still": stand, and once a
+    /// depth has been shown for 1 s mark the spot and read it. A start is located when the spot
+    /// is within max(0.15 m, 0.1·depth) of the point over the sonde and the depth within 2σ and
+    /// 5 % of the truth (120 s at most). Starts are uniform within the detection range with a
+    /// random heading, where the best coil reads at least 20 dB.
+    Locate {
+        /// Scenario TOML file (its sonde, receiver, noise and ground; its motion is not used).
+        scenario: PathBuf,
+        /// Number of starts.
+        #[arg(long, default_value_t = 200, value_parser = clap::value_parser!(u32).range(1..=100_000))]
+        starts: u32,
+        /// Seed of the starts and their noise (default: the scenario's).
+        #[arg(long)]
+        seed: Option<u64>,
+        /// Print one JSON object per start and a last summary object.
+        #[arg(long)]
+        json: bool,
+        /// Output folder for the tracks drawn over the field map.
+        #[arg(long, short, default_value = "undertone-out/locate")]
+        output: PathBuf,
+        /// Instead, print every readout of one start as the operator saw it.
+        #[arg(long)]
+        trace: Option<usize>,
+    },
     /// The detector alone: per-coil amplitude and phase of a synthetic tone against the truth.
     Detect,
 }
@@ -176,6 +208,14 @@ fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
                 writeln!(out, "  {}", f.display()).map_err(io)?;
             }
             Ok(())
+        }
+        Command::Locate { scenario, starts, seed, json, output, trace } => {
+            let sc = Scenario::load(&scenario)?;
+            if let Some(k) = trace {
+                let r = undertone_sim::locate::trace(&sc, k, seed.unwrap_or(sc.seed), out)?;
+                return writeln!(out, "{}", serde_json::to_string(&r).unwrap_or_default()).map_err(io);
+            }
+            undertone_sim::locate::command(&sc, starts as usize, seed.unwrap_or(sc.seed), json, &output, out)
         }
         Command::Detect => undertone_sim::detector_demo::run(out).map_err(io),
     }

@@ -16,19 +16,29 @@ pub const CELLS: usize = 120;
 
 /// Draw both maps into `out_dir`; returns the file paths.
 pub fn map(sc: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>> {
-    crate::output::folder(out_dir)?;
     let motion = Motion::new(&sc.motion, sc.seed);
     let dur = motion.duration_s();
+    let steps = 200;
+    let path: Vec<(f64, f64)> = (0..=steps).map(|k| motion.pose(dur * k as f64 / steps as f64)).map(|p| (p.x_m, p.y_m)).collect();
+    let tracks = vec![("receiver path".to_string(), path, plotters::style::RGBColor(255, 255, 255))];
+    let mut files = field_map(sc, out_dir, "map-horizontal", "horizontal field at the lower coil", false, &tracks, dur)?;
+    files.extend(field_map(sc, out_dir, "map-vertical", "vertical field at the lower coil", true, &tracks, dur)?);
+    Ok(files)
+}
+
+/// One field map (horizontal field in dB re 1 nT, or the signed vertical field in nT) as
+/// `stem.png`/`stem.svg` in `out_dir`, with `tracks` and the sonde's own track over `dur_s`.
+pub fn field_map(sc: &Scenario, out_dir: &Path, stem: &str, title: &str, vertical: bool, tracks: &[crate::plots::Track], dur_s: f64) -> Result<Vec<PathBuf>> {
+    crate::output::folder(out_dir)?;
+    let dur = dur_s;
     let s = &sc.sonde;
     let ax = axis(s.yaw_deg.to_radians(), s.pitch_deg.to_radians());
     let sonde_at =
         |t: f64| [s.x_m + ax[0] * s.push_speed_m_s * t, s.y_m + ax[1] * s.push_speed_m_s * t, -s.depth_m + ax[2] * s.push_speed_m_s * t];
-    let steps = 200;
-    let path: Vec<(f64, f64)> = (0..=steps).map(|k| motion.pose(dur * k as f64 / steps as f64)).map(|p| (p.x_m, p.y_m)).collect();
     let (p0, p1) = (sonde_at(0.0), sonde_at(dur));
     // The sonde's track, extended ±0.15 m along its axis to show which way it points.
     let track = vec![(p0[0] - 0.15 * ax[0], p0[1] - 0.15 * ax[1]), (p1[0] + 0.15 * ax[0], p1[1] + 0.15 * ax[1])];
-    let pts = path.iter().chain(track.iter());
+    let pts = tracks.iter().flat_map(|t| t.1.iter()).chain(track.iter());
     let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
     for &(x, y) in pts {
         x0 = x0.min(x);
@@ -56,23 +66,23 @@ pub fn map(sc: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>> {
             bz[iy][ix] = b[2] * att * 1e9;
         }
     }
-    let mk = |title: &str, label: &str, values: Vec<Vec<f64>>| Heatmap {
-        title: format!("{}: {}", sc.name, title),
-        x_label: "east (m)".into(),
-        y_label: "north (m)".into(),
-        value_label: label.into(),
-        x: (x0, x1),
-        y: (y0, y1),
-        values,
-        tracks: vec![
-            ("receiver path".into(), path.clone(), plotters::style::RGBColor(255, 255, 255)),
-            ("sonde track and axis".into(), track.clone(), plotters::style::RGBColor(230, 30, 30)),
-        ],
-        marked: vec![],
-        marked_name: String::new(),
-        cell_labels: None,
-    };
-    let mut files = heatmap(&out_dir.join("map-horizontal"), &mk("horizontal field at the lower coil", "dB re 1 nT", bh))?;
-    files.extend(heatmap(&out_dir.join("map-vertical"), &mk("vertical field at the lower coil", "nT (signed)", bz))?);
-    Ok(files)
+    let mut all: Vec<crate::plots::Track> = tracks.to_vec();
+    all.push(("sonde track and axis".into(), track, plotters::style::RGBColor(230, 30, 30)));
+    let (label, values) = if vertical { ("nT (signed)", bz) } else { ("dB re 1 nT", bh) };
+    heatmap(
+        &out_dir.join(stem),
+        &Heatmap {
+            title: format!("{}: {}", sc.name, title),
+            x_label: "east (m)".into(),
+            y_label: "north (m)".into(),
+            value_label: label.into(),
+            x: (x0, x1),
+            y: (y0, y1),
+            values,
+            tracks: all,
+            marked: vec![],
+            marked_name: String::new(),
+            cell_labels: None,
+        },
+    )
 }

@@ -6,6 +6,9 @@ use crate::scenario::{MotionSpec, Scenario};
 use std::io::Write;
 use undertone_dsp::locate::depth::null_span_depth;
 
+/// The caution in one line, for JSON and plot captions.
+pub const CAUTION_LINE: &str = "A depth is an estimate with an error, not a measurement: confirm by careful hand digging, call your local one-call (call-before-you-dig) service and follow local codes and licensed practice before any excavation.";
+
 /// The cautions every report carries.
 pub const CAUTIONS: &str = "\
 CAUTION: a depth from this receiver is an estimate with an error, not a measurement. Confirm the

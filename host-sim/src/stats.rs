@@ -188,3 +188,13 @@ pub fn trials_to_clear_rate(p: f64, limit: f64, from: usize) -> Option<usize> {
     };
     smallest(from, clears)
 }
+
+/// The median of `v` (sorted in place; NaNs last); `None` when empty.
+pub fn median(v: &mut [f64]) -> Option<f64> {
+    if v.is_empty() {
+        return None;
+    }
+    v.sort_by(|a, b| a.total_cmp(b));
+    let n = v.len();
+    Some(if n % 2 == 1 { v[n / 2] } else { 0.5 * (v[n / 2 - 1] + v[n / 2]) })
+}

@@ -78,6 +78,8 @@ pub enum Hint {
     /// Walk slowly along the handle, either way, keeping its heading: the
     /// receiver needs the change of the field to tell which side the sonde is.
     WalkAlong,
+    /// The field is getting weaker the way you are going: go the other way.
+    WalkOtherWay,
     /// Step to the left, keeping the heading.
     StepLeft,
     /// Step to the right, keeping the heading.
@@ -98,6 +100,7 @@ impl Hint {
             Hint::WalkAhead => "walk-ahead",
             Hint::WalkBack => "walk-back",
             Hint::WalkAlong => "walk-along",
+            Hint::WalkOtherWay => "walk-other-way",
             Hint::StepLeft => "step-left",
             Hint::StepRight => "step-right",
             Hint::SweepAlong => "sweep-along",

@@ -340,7 +340,8 @@ impl<const N: usize> Locator<N> {
         } else if settling {
             Guidance::unsure(Withheld::Settling, Hint::Wait)
         } else {
-            self.guidance(&offsets, h_hint, clipped, self.state)
+            let out_of_line = field.horizontal > 5.0 * sig_lo && libm::fabsf(field.bearing_rad) > TURN_BEARING_RAD;
+            self.guidance(&offsets, &track, h_hint, clipped, self.state, out_of_line)
         };
         guidance.vertical_ratio = field.vertical_ratio();
         // 7. Depths.
@@ -459,9 +460,26 @@ impl<const N: usize> Locator<N> {
     }
 
     /// Step 6b: guidance from the placement.
-    fn guidance(&self, placement: &Option<Placement>, h_hint: Option<f32>, clipped: bool, state: Orientation) -> Guidance {
+    fn guidance(&self, placement: &Option<Placement>, track: &TrackState, h_hint: Option<f32>, clipped: bool, state: Orientation, out_of_line: bool) -> Guidance {
+        let mut g = self.directions(placement, track, h_hint, clipped, state);
+        // The procedure walks along the handle in line with the field: turn first.
+        if out_of_line || state == Orientation::Crossed {
+            g.hint = Hint::TurnInLine;
+        }
+        g
+    }
+
+    /// The directions and the hint before the in-line check.
+    fn directions(&self, placement: &Option<Placement>, track: &TrackState, h_hint: Option<f32>, clipped: bool, state: Orientation) -> Guidance {
         let Some(p) = placement else {
-            let hint = if state == Orientation::Crossed { Hint::TurnInLine } else { Hint::WalkAlong };
+            // Not yet placed: follow the field (in line) the way it gets stronger.
+            let hint = if state == Orientation::Crossed {
+                Hint::TurnInLine
+            } else if track.falling {
+                Hint::WalkOtherWay
+            } else {
+                Hint::WalkAlong
+            };
             return Guidance::unsure(Withheld::NeedsMotion, hint);
         };
         let mut g = Guidance {
@@ -672,6 +690,8 @@ impl<const N: usize> Locator<N> {
 /// guidance is given (beyond it: turn in line), rad (40°).
 pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
 
+/// Bearing of the field from the handle beyond which the receiver asks to turn in line, rad (15°).
+pub const TURN_BEARING_RAD: f32 = 0.262;
 /// Fastest along-axis motion at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
 pub const MAX_OVER_SPEED_DEPTHS_PER_S: f32 = 0.1;
 

@@ -92,6 +92,10 @@ pub struct TrackState {
     pub sigma_eta: f32,
     /// The receiver was judged to move during this readout.
     pub moving: bool,
+    /// The field has been getting weaker as the receiver moves: over the last
+    /// [`FALL_WINDOW_S`] its strength fell significantly and by more than
+    /// [`FALL_FRACTION`] from the strongest reading of the last two windows.
+    pub falling: bool,
 }
 
 impl TrackState {
@@ -107,6 +111,7 @@ impl TrackState {
         eta: 0.0,
         sigma_eta: f32::INFINITY,
         moving: false,
+        falling: false,
     };
 }
 
@@ -124,6 +129,11 @@ struct Passage {
     /// When it ended (None: still in it), s.
     ended_s: Option<f32>,
 }
+
+/// Window over which a falling strength is judged, s.
+pub const FALL_WINDOW_S: f32 = 1.5;
+/// Fall of the strength (log) from its recent best that counts as falling.
+pub const FALL_FRACTION: f32 = 0.1;
 
 /// Largest change of the field between two readouts taken as a measurement (a fraction of it).
 pub const SPIKE_FRACTION: f32 = 0.5;
@@ -357,15 +367,25 @@ impl Track {
         } else if self.have {
             let step = wrap_half(psi - self.last_psi);
             self.phi += step;
-            // Walking along, the lateral offset drifts by a little of the distance walked:
-            // Δu ≥ |ΔΦ|/3 (|dΦ/du| ≤ 3), exact where the track knows u.
+            // Walking along the handle, at β from the axis: Δx̃ = d·cos β, Δỹ = −d·sin β, so
+            // the lateral offset moves by Δη = −tan β·Δu, where the track knows u (then
+            // Δu = ΔΦ/(dΦ/du)); on top a person drifts by a little of the distance walked.
+            // Unplaced, only |Δu| ≥ |ΔΦ|/3 is known (|dΦ/du| ≤ 3).
             let du = if self.state.placed {
-                let u = self.state.u;
-                libm::fabsf(step) * (4.0 * u * u + 1.0) * (u * u + 1.0) / (3.0 * (2.0 * u * u + 1.0))
+                let parity = if self.evidence >= 0.0 { 0.0 } else { core::f32::consts::PI };
+                let (u, _) = u_of_phi(self.phi - step + parity);
+                -step * (4.0 * u * u + 1.0) * (u * u + 1.0) / (3.0 * (2.0 * u * u + 1.0))
             } else {
-                libm::fabsf(step) / 3.0
+                0.0
             };
-            self.cov[1][1] = (self.cov[1][1] + (LATERAL_DRIFT * du) * (LATERAL_DRIFT * du)).min(PRIOR_SIGMA_Q * PRIOR_SIGMA_Q);
+            let adu = if self.state.placed { libm::fabsf(du) } else { libm::fabsf(step) / 3.0 };
+            if self.have_axis {
+                let d = libm::atanf(self.p);
+                self.q += -libm::tanf(self.axis()) * du / libm::cosf(d);
+                let sb2 = self.cov[0][0].max(0.0);
+                self.cov[1][1] += du * du * sb2;
+            }
+            self.cov[1][1] = (self.cov[1][1] + (LATERAL_DRIFT * adu) * (LATERAL_DRIFT * adu)).min(PRIOR_SIGMA_Q * PRIOR_SIGMA_Q);
         } else {
             self.phi = psi;
         }
@@ -675,7 +695,22 @@ impl Track {
         let t_end = self.hist.back().map(|s| s.t).unwrap_or(0.0);
         let rate = slope(|| self.hist.iter().filter(|s| s.t >= t_end - 0.5).map(|s| (s.t - t_end, s.phi))).map(|v| v.0).unwrap_or(0.0);
         let placed = libm::fabsf(self.evidence) >= DECIDE;
-        let mut st = TrackState { placed, sigma_phi_rad: sigma_psi, axis_rad: beta, eta, sigma_eta, moving, ..TrackState::EMPTY };
+        // Falling: the log-strength's slope over the window is significantly negative (the
+        // readouts' correlation taken into account), and it is well below the recent best.
+        let falling = {
+            let win = || self.hist.iter().filter(move |s| s.t >= t_end - FALL_WINDOW_S);
+            let best = self.hist.iter().filter(|s| s.t >= t_end - 2.0 * FALL_WINDOW_S).map(|s| s.l).fold(f32::NEG_INFINITY, f32::max);
+            let now = self.hist.back().map(|s| s.l).unwrap_or(best);
+            match slope(|| win().map(|s| (s.t - t_end, s.l))) {
+                Some((b, se, _)) => {
+                    let n = win().count() as f32;
+                    let infl = libm::sqrtf((n * x.noise_corr_s / FALL_WINDOW_S).max(1.0));
+                    b < -3.0 * se * infl && best - now > FALL_FRACTION
+                }
+                None => false,
+            }
+        };
+        let mut st = TrackState { placed, sigma_phi_rad: sigma_psi, axis_rad: beta, eta, sigma_eta, moving, falling, ..TrackState::EMPTY };
         if placed {
             let phi = wrap_turn(self.phi + if self.evidence >= 0.0 { 0.0 } else { core::f32::consts::PI });
             let (u, inside) = u_of_phi(phi);
