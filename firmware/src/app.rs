@@ -627,11 +627,22 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
         s
     }
 
+    /// Take `s` into use. The receiver is rebuilt (and its locating state started afresh) only
+    /// when its own settings change: units and the test distance are the application's, and a
+    /// new calibration is handed to the running receiver.
     fn rebuild(&mut self, s: Settings<N>) -> Result<(), ConfigError> {
-        let r = Receiver::new(s.receiver_settings(self.hw.fs, self.hw.full_scale_code, self.scale()))?;
-        self.receiver = r;
+        let new = s.receiver_settings(self.hw.fs, self.hw.full_scale_code, self.scale());
+        let mut old = *self.receiver.settings();
+        old.locator.calibration = new.locator.calibration;
+        if old == new {
+            if s.calibration != self.settings.calibration {
+                self.receiver.set_calibration(s.calibration);
+            }
+        } else {
+            self.receiver = Receiver::new(new)?;
+            self.view = None;
+        }
         self.settings = s;
-        self.view = None;
         Ok(())
     }
 
