@@ -381,7 +381,10 @@ impl<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize> Ads131<SPI, DRD
 
 /// The data-ready interrupt's work: read one frame into the queue; a frame the
 /// driver rejects (CRC, bus) is counted for the supervisor, a full queue as an overrun.
-pub fn read_into<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize>(adc: &mut Ads131<SPI, DRDY, D, N>, tx: &mut FrameProducer<'_, N>) {
+pub fn read_into<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize>(
+    adc: &mut Ads131<SPI, DRDY, D, N>,
+    tx: &mut FrameProducer<'_, N>,
+) {
     match adc.read() {
         Ok(f) => {
             tx.push(f);

@@ -17,7 +17,7 @@
 //! receiver first: a refused change leaves the old settings in force and says
 //! why.
 
-use crate::ads131::{Ads131, AdcError, Osr};
+use crate::ads131::{AdcError, Ads131, Osr};
 use crate::battery::{Battery, Divider};
 use crate::buttons::Buttons;
 use crate::clock::Uptime;
@@ -93,23 +93,27 @@ impl<T: Converter<N>, const N: usize> Converter<N> for Shared<'_, T> {
     }
 }
 
+/// The screen's controller did not take a page (a bus error, or no such page).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct PanelError;
+
 /// The screen's controller: takes one 128-byte page at a time.
 pub trait Panel {
     /// Send page `page` (rows 8·page to 8·page + 7).
-    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), ()>;
+    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), PanelError>;
 }
 
 /// No screen fitted.
 impl Panel for () {
-    fn send_page(&mut self, _page: usize, _bytes: &[u8]) -> Result<(), ()> {
+    fn send_page(&mut self, _page: usize, _bytes: &[u8]) -> Result<(), PanelError> {
         Ok(())
     }
 }
 
 /// A screen in RAM (the emulator's and the tests').
 impl Panel for Frame {
-    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), ()> {
-        let dst = self.bytes.get_mut(page * 128..page * 128 + bytes.len()).ok_or(())?;
+    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), PanelError> {
+        let dst = self.bytes.get_mut(page * 128..page * 128 + bytes.len()).ok_or(PanelError)?;
         dst.copy_from_slice(bytes);
         Ok(())
     }
@@ -167,8 +171,8 @@ pub enum Event<'a, const N: usize> {
     Screen {
         /// When, ms since start.
         t_ms: u64,
-        /// CRC-32 of the frame buffer.
-        checksum: u32,
+        /// The frame buffer (its [`Frame::checksum`] is what the emulator check compares).
+        frame: &'a Frame,
         /// What it shows.
         page: &'a Page,
     },
@@ -215,6 +219,7 @@ pub struct App<C, P, S, const N: usize> {
     reply: String<REPLY>,
     job: Option<Job>,
     job_by_command: bool,
+    burst: [[i32; N]; BURST],
 }
 
 fn code_ratio(from: u8, to: u8) -> f32 {
@@ -281,6 +286,7 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
             reply: String::new(),
             job: None,
             job_by_command: false,
+            burst: [[0; N]; BURST],
         })
     }
 
@@ -340,7 +346,7 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
         // 1. Frames → receiver.
         let mut drained = 0;
         while drained < MAX_DRAIN {
-            let mut burst = [[0i32; N]; BURST];
+            let burst = &mut self.burst;
             let mut k = 0;
             while k < BURST {
                 match frames.pop() {
@@ -358,12 +364,12 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
             if let Some(job) = self.job.as_mut().filter(|j| j.wants_samples()) {
                 let lo = self.settings.head.roles.lower[0].unwrap_or(0) as usize;
                 let scale = self.receiver.detector().input().scale[lo];
-                for f in &burst[..k] {
+                for f in &self.burst[..k] {
                     job.sample(f[lo] as f32 * scale);
                 }
             }
             let mut readouts: heapless::Vec<Readout<N>, 4> = heapless::Vec::new();
-            self.receiver.push_codes_block(&burst[..k], |r| {
+            self.receiver.push_codes_block(&self.burst[..k], |r| {
                 let _ = readouts.push(r);
             });
             for r in readouts.iter() {
@@ -406,11 +412,12 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
         self.advance_job(out);
         // 7. Screen: redraw on time, then one page per pass.
         if now >= self.next_refresh_ms {
-            self.next_refresh_ms = if now - self.next_refresh_ms > REFRESH_MS { now + REFRESH_MS } else { self.next_refresh_ms + REFRESH_MS };
+            self.next_refresh_ms =
+                if now - self.next_refresh_ms > REFRESH_MS { now + REFRESH_MS } else { self.next_refresh_ms + REFRESH_MS };
             self.page = self.current_page();
             let _ = draw(&self.page, &mut self.frame);
             self.pages_left = PAGES;
-            out(Event::Screen { t_ms: now, checksum: self.frame.checksum(), page: &self.page });
+            out(Event::Screen { t_ms: now, frame: &self.frame, page: &self.page });
         }
         if self.pages_left > 0 {
             let p = PAGES - self.pages_left;
@@ -459,7 +466,11 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
                 self.gains[ch] = now[ch];
             }
         }
-        out(Event::Note(if ok { "converter fault: re-initialised, gains restored" } else { "converter fault: re-initialisation failed, will retry" }));
+        out(Event::Note(if ok {
+            "converter fault: re-initialised, gains restored"
+        } else {
+            "converter fault: re-initialisation failed, will retry"
+        }));
     }
 
     fn values(&self) -> Values {
@@ -697,7 +708,8 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
                     "detector"
                 }
                 Command::Block(w) => {
-                    s.kind = DetectorKind::Block { window: [Window::Rectangular, Window::Hann, Window::BlackmanHarris4][w.min(2) as usize] };
+                    s.kind =
+                        DetectorKind::Block { window: [Window::Rectangular, Window::Hann, Window::BlackmanHarris4][w.min(2) as usize] };
                     "detector"
                 }
                 Command::Rate(r) => {
@@ -774,9 +786,9 @@ impl<C: Converter<N>, P: Panel, S: SettingsStore<N>, const N: usize> App<C, P, S
                 self.show();
                 out(Event::Reply(&self.reply));
             }
-            (Command::Help, _) => out(Event::Reply(
-                "ok commands: freq band detector rate units height distance coil cal check scan save show defaults help",
-            )),
+            (Command::Help, _) => {
+                out(Event::Reply("ok commands: freq band detector rate units height distance coil cal check scan save show defaults help"))
+            }
             (Command::Check | Command::CalRun | Command::Scan, _) => {
                 let kind = match cmd {
                     Command::Check => JobKind::Check,

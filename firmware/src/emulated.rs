@@ -20,9 +20,9 @@ use crate::screen::{Frame, Page};
 use crate::settings::Settings;
 use crate::storage::{RamFlash, Store};
 use core::cell::{Cell, RefCell};
-use critical_section::Mutex;
 use core::convert::Infallible;
 use core::fmt::Write;
+use critical_section::Mutex;
 use embedded_hal::spi::{Operation, SpiDevice};
 use heapless::String;
 use undertone_dsp::field::Source;
@@ -341,7 +341,8 @@ pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str
         Err(_) => return rep,
     };
     let fsc = 8_388_607;
-    let hw = Hardware { fs, full_scale_code: fsc, unity_scale: [1.0 / fsc as f32; 4], ticks_per_ms: EMU_CORE_HZ / 1000, divider: BOARD_DIVIDER };
+    let hw =
+        Hardware { fs, full_scale_code: fsc, unity_scale: [1.0 / fsc as f32; 4], ticks_per_ms: EMU_CORE_HZ / 1000, divider: BOARD_DIVIDER };
     let ticks_per_frame = (EMU_CORE_HZ as f32 / fs) as u32;
     let mut print = |e: Event<'_, 4>, rep: &mut EmuReport, line: &mut String<REPLY>| {
         match e {
@@ -357,9 +358,9 @@ pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str
                 line.clear();
                 let _ = write!(line, "I {t}");
             }
-            Event::Screen { t_ms, checksum, page } => {
+            Event::Screen { t_ms, frame, page } => {
                 rep.screens += 1;
-                screen_line(t_ms, checksum, page, line);
+                screen_line(t_ms, frame.checksum(), page, line);
             }
         }
         out(line);

@@ -43,6 +43,9 @@ pub struct Sums {
 }
 
 /// A job in progress.
+// One job at a time lives inside the application (in static memory on the board); the scan's
+// buffer is the job, and there is no allocator to box it.
+#[allow(clippy::large_enum_variant)]
 #[derive(Clone, Debug, PartialEq)]
 pub enum Job {
     /// Averaging readouts for a check or a calibration.
@@ -135,7 +138,14 @@ impl Job {
     }
 
     /// Work for one main-loop pass; the outcome when the job is done.
-    pub fn advance<const N: usize>(&mut self, fs: f32, head: &Head<N>, model: undertone_dsp::FieldModel, distance_m: f32, cal: &Calibration) -> Option<Outcome> {
+    pub fn advance<const N: usize>(
+        &mut self,
+        fs: f32,
+        head: &Head<N>,
+        model: undertone_dsp::FieldModel,
+        distance_m: f32,
+        cal: &Calibration,
+    ) -> Option<Outcome> {
         match self {
             Job::Measure { kind, sums: s } if s.n >= MEASURE_READOUTS => {
                 let n = s.n as f32;

@@ -135,6 +135,8 @@ pub struct Values {
 }
 
 /// Where the menu is.
+// One value inside the application; a result page is its largest state, kept by value (no allocator).
+#[allow(clippy::large_enum_variant)]
 #[derive(Clone, Debug, PartialEq)]
 pub enum Mode {
     /// The start-up caution, until this time (or a press).

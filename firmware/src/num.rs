@@ -215,11 +215,8 @@ pub fn parse_f32(s: &str) -> Option<f32> {
         } else if c.is_ascii_digit() {
             let d = c - b'0';
             digits += 1;
-            if digs.is_empty() && d == 0 {
-                if frac {
-                    exp10 -= 1;
-                }
-            } else if digs.push(d).is_ok() {
+            let leading_zero = digs.is_empty() && d == 0;
+            if leading_zero || digs.push(d).is_ok() {
                 if frac {
                     exp10 -= 1;
                 }
@@ -537,8 +534,14 @@ mod tests {
         // 2^24 + 3 is halfway between 2^24 + 2 and 2^24 + 4: to even, 2^24 + 4.
         assert_eq!(parse_f32("16777219"), Some(16_777_220.0));
         // Half the smallest subnormal rounds to zero (even); a hair above rounds up.
-        assert_eq!(parse_f32("7.00649232162408535461864791644958065640130970938257885878534141944895541342930300743319094181060791015625e-46"), Some(0.0));
-        assert_eq!(parse_f32("7.006492321624085354618647916449580656401309709382578858785341419448955413429303007433190941810607910156251e-46"), Some(f32::from_bits(1)));
+        assert_eq!(
+            parse_f32("7.00649232162408535461864791644958065640130970938257885878534141944895541342930300743319094181060791015625e-46"),
+            Some(0.0)
+        );
+        assert_eq!(
+            parse_f32("7.006492321624085354618647916449580656401309709382578858785341419448955413429303007433190941810607910156251e-46"),
+            Some(f32::from_bits(1))
+        );
         // Half an ulp above the largest finite value rounds (to even) to infinity.
         assert_eq!(parse_f32("340282356779733661637539395458142568448"), Some(f32::INFINITY));
         assert_eq!(parse_f32("340282356779733661637539395458142568447"), Some(f32::MAX));

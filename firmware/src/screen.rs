@@ -115,6 +115,29 @@ impl DrawTarget for Frame {
         Ok(())
     }
 
+    fn fill_contiguous<I: IntoIterator<Item = BinaryColor>>(&mut self, area: &Rectangle, colors: I) -> Result<(), Infallible> {
+        // Row by row without a `Pixel` per point (text glyphs arrive this way).
+        let (x0, y0, w) = (area.top_left.x, area.top_left.y, area.size.width as i32);
+        let (mut x, mut y) = (x0, y0);
+        for c in colors.into_iter().take(area.size.width as usize * area.size.height as usize) {
+            if (0..WIDTH as i32).contains(&x) && (0..HEIGHT as i32).contains(&y) {
+                let i = (y as usize / 8) * WIDTH + x as usize;
+                let bit = 1u8 << (y % 8);
+                if c.is_on() {
+                    self.bytes[i] |= bit;
+                } else {
+                    self.bytes[i] &= !bit;
+                }
+            }
+            x += 1;
+            if x == x0 + w {
+                x = x0;
+                y += 1;
+            }
+        }
+        Ok(())
+    }
+
     fn fill_solid(&mut self, area: &Rectangle, color: BinaryColor) -> Result<(), Infallible> {
         // Clipped to the screen, then set or cleared a column byte at a time.
         let x0 = area.top_left.x.clamp(0, WIDTH as i32) as usize;
@@ -164,10 +187,8 @@ impl TextPage {
         let mut row: String<21> = String::new();
         for w in text.split(' ') {
             let w = w.get(..21).unwrap_or(w);
-            if row.len() + w.len() + 1 > 21 && !row.is_empty() {
-                if t.rows.push(core::mem::take(&mut row)).is_err() {
-                    break;
-                }
+            if row.len() + w.len() + 1 > 21 && !row.is_empty() && t.rows.push(core::mem::take(&mut row)).is_err() {
+                break;
             }
             if !row.is_empty() {
                 let _ = row.push(' ');
@@ -183,6 +204,8 @@ impl TextPage {
 }
 
 /// What the screen shows.
+// One value inside the application, kept by value (no allocator).
+#[allow(clippy::large_enum_variant)]
 #[derive(Clone, Debug, PartialEq)]
 pub enum Page {
     /// The start-up caution.
@@ -197,7 +220,13 @@ pub enum Page {
 
 const ON: BinaryColor = BinaryColor::On;
 
-fn text<D: DrawTarget<Color = BinaryColor>>(d: &mut D, s: &str, x: i32, y: i32, font: &'static embedded_graphics::mono_font::MonoFont<'static>) -> Result<(), D::Error> {
+fn text<D: DrawTarget<Color = BinaryColor>>(
+    d: &mut D,
+    s: &str,
+    x: i32,
+    y: i32,
+    font: &'static embedded_graphics::mono_font::MonoFont<'static>,
+) -> Result<(), D::Error> {
     Text::with_baseline(s, Point::new(x, y), MonoTextStyle::new(font, ON), Baseline::Top).draw(d).map(|_| ())
 }
 
@@ -270,7 +299,11 @@ pub fn draw<D: DrawTarget<Color = BinaryColor>>(page: &Page, d: &mut D) -> Resul
 fn draw_caution<D: DrawTarget<Color = BinaryColor>>(d: &mut D) -> Result<(), D::Error> {
     text(d, "Undertone", 37, 0, &FONT_6X10)?;
     rule(d, 11)?;
-    for (i, l) in ["A depth is an estimate", "with an error. Confirm", "by careful hand digging;", "call before you dig and", "follow local rules."].iter().enumerate() {
+    for (i, l) in
+        ["A depth is an estimate", "with an error. Confirm", "by careful hand digging;", "call before you dig and", "follow local rules."]
+            .iter()
+            .enumerate()
+    {
         text(d, l, 2, 14 + 10 * i as i32, &FONT_5X8)?;
     }
     Ok(())

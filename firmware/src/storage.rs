@@ -163,7 +163,11 @@ impl Record {
             readout_hz: self.readout_hz,
             units: if self.imperial { LengthUnit::FeetInches } else { LengthUnit::Metres },
             head: Head { coils, roles },
-            calibration: Calibration { upper_gain: self.calibration[0], strength: self.calibration[1], strength_sigma: self.calibration[2] },
+            calibration: Calibration {
+                upper_gain: self.calibration[0],
+                strength: self.calibration[1],
+                strength_sigma: self.calibration[2],
+            },
             coil_height_m: self.coil_height_m,
             check_distance_m: self.check_distance_m,
         })

@@ -193,7 +193,10 @@ fn a_flat_battery_refuses_to_save_and_keeps_the_stored_settings() {
     let Some((_, _, Page::Text(t))) = seen.screens.last() else { panic!() };
     assert_eq!(t.title.as_str(), "Save settings");
     // The locating screen warns.
-    let warned = seen.screens.iter().any(|(_, _, p)| matches!(p, Page::Locate(v) if v.warnings.contains(&undertone_firmware::view::Warning::BatteryFlat)));
+    let warned = seen
+        .screens
+        .iter()
+        .any(|(_, _, p)| matches!(p, Page::Locate(v) if v.warnings.contains(&undertone_firmware::view::Warning::BatteryFlat)));
     assert!(warned);
     // What is stored is the imperial record of before.
     let flash = std::mem::replace(a.store(), Store::new(RamFlash::new(), 0, 4096).unwrap()).release();
@@ -255,13 +258,19 @@ fn limits_come_from_the_dsp_and_numbers_print_right() {
         a.command(l, &mut |e| s.take(e));
         s.replies.pop().unwrap()
     };
-    assert_eq!(say(&mut a, "cal strength 1e-40"), "err source strength 1e-40 is not allowed: allowed 1.1754944e-38 to 3.4028235e38; unchanged");
+    assert_eq!(
+        say(&mut a, "cal strength 1e-40"),
+        "err source strength 1e-40 is not allowed: allowed 1.1754944e-38 to 3.4028235e38; unchanged"
+    );
     assert_eq!(say(&mut a, "coil 3 pos 0 0 -0.4"), "err coil 3 position -0.4 m is not allowed: allowed 0.05 m to 2 m; unchanged");
     assert_eq!(say(&mut a, "coil 1 gain 20"), "err coil 1 gain 20 is not allowed: allowed 0.1 to 10; unchanged");
     assert_eq!(say(&mut a, "height 3"), "err coil height 3 m is not allowed: allowed 0 m to 2 m; unchanged");
     assert_eq!(say(&mut a, "distance 0.1"), "err distance 0.1 m is not allowed: allowed 0.2 m to 5 m; unchanged");
     assert_eq!(say(&mut a, "cal upper 1.5"), "err calibration input 1.5 is not allowed: allowed 0.7 to 1.3; unchanged");
-    assert_eq!(say(&mut a, "coil 1 axis 0 0 0"), "err coil 1 axis length 0 is not allowed: allowed 1.1754944e-38 to 3.4028235e38; unchanged");
+    assert_eq!(
+        say(&mut a, "coil 1 axis 0 0 0"),
+        "err coil 1 axis length 0 is not allowed: allowed 1.1754944e-38 to 3.4028235e38; unchanged"
+    );
     assert_eq!(say(&mut a, "coil 1 axis 0 3 0"), "ok coil");
     assert_eq!(a.settings().head.coils[1].axis, [0.0, 1.0, 0.0]);
     assert!(say(&mut a, "show").contains("spacing 0.40 m"));

@@ -2,8 +2,8 @@
 
 use std::cell::Cell;
 use undertone_dsp::Flags;
-use undertone_firmware::ads131::{Ads131, Osr};
 use undertone_firmware::ads131::read_into;
+use undertone_firmware::ads131::{Ads131, Osr};
 use undertone_firmware::emulated::{FakeAdc, FakeDrdy, NoWait, Synthetic};
 use undertone_firmware::queue::{split, FrameQueue, PathCounts};
 use undertone_firmware::supervisor::{Action, PathState, Supervisor, MAX_BAD_FRAMES, RETRY_MS, STALL_MS};

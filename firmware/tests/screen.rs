@@ -106,14 +106,17 @@ fn the_rose_points_the_way_and_says_over_or_unsure() {
     let unsure = drawn(&v);
     assert!(shows(&unsure, "?", 16, 21, &FONT_10X20, false));
     assert_ne!(ahead.checksum(), over.checksum());
-    assert_eq!(over.checksum(), drawn(&{
-        let mut w = view();
-        w.along = Along::Over;
-        w.across = Across::Centred;
-        w.depth = DepthLine::Shown { below_ground_m: 1.42, sigma_m: 0.05 };
-        w
-    })
-    .checksum());
+    assert_eq!(
+        over.checksum(),
+        drawn(&{
+            let mut w = view();
+            w.along = Along::Over;
+            w.across = Across::Centred;
+            w.depth = DepthLine::Shown { below_ground_m: 1.42, sigma_m: 0.05 };
+            w
+        })
+        .checksum()
+    );
 }
 
 #[test]

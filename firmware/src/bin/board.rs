@@ -36,9 +36,9 @@ use stm32f4xx_hal::{
     timer::Delay,
     watchdog::IndependentWatchdog,
 };
-use undertone_firmware::ads131::{read_into, Ads131, Osr};
 use undertone_dsp::format::length;
-use undertone_firmware::app::{App, Event, Hardware, Inputs, Panel, SettingsStore, Shared};
+use undertone_firmware::ads131::{read_into, Ads131, Osr};
+use undertone_firmware::app::{App, Event, Hardware, Inputs, Panel, PanelError, SettingsStore, Shared};
 use undertone_firmware::battery::BOARD_DIVIDER;
 use undertone_firmware::queue::{split, FrameProducer, FrameQueue, PathCounts};
 use undertone_firmware::settings::Settings;
@@ -78,10 +78,10 @@ fn EXTI0() {
 struct Oled(Ssd1306<I2CInterface<I2c<pac::I2C1>>, DisplaySize128x64, BasicMode>);
 
 impl Panel for Oled {
-    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), ()> {
+    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), PanelError> {
         let y = (page * 8) as u8;
-        self.0.set_draw_area((0, y), (128, y + 8)).map_err(|_| ())?;
-        self.0.draw(bytes).map_err(|_| ())
+        self.0.set_draw_area((0, y), (128, y + 8)).map_err(|_| PanelError)?;
+        self.0.draw(bytes).map_err(|_| PanelError)
     }
 }
 
@@ -159,7 +159,13 @@ fn main() -> ! {
     let (tx, mut rx) = split(queue, &COUNTS);
 
     let fsc = 8_388_607;
-    let hw = Hardware { fs: OSR.rate_hz(), full_scale_code: fsc, unity_scale: [1.0 / fsc as f32; 4], ticks_per_ms: CORE_HZ / 1000, divider: BOARD_DIVIDER };
+    let hw = Hardware {
+        fs: OSR.rate_hz(),
+        full_scale_code: fsc,
+        unity_scale: [1.0 / fsc as f32; 4],
+        ticks_per_ms: CORE_HZ / 1000,
+        divider: BOARD_DIVIDER,
+    };
     // Readouts are logged with defmt's deferred formatting (numbers are formatted on the
     // host); lengths in the units chosen.
     let log = |e: Event<'_, 4>, units| match e {

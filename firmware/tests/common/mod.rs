@@ -35,7 +35,7 @@ impl Seen {
             Event::Readout(r) => self.readouts.push(*r),
             Event::Reply(t) => self.replies.push(t.to_string()),
             Event::Note(t) => self.notes.push(t.to_string()),
-            Event::Screen { t_ms, checksum, page } => self.screens.push((t_ms, checksum, page.clone())),
+            Event::Screen { t_ms, frame, page } => self.screens.push((t_ms, frame.checksum(), page.clone())),
         }
     }
 }
@@ -100,7 +100,7 @@ impl World {
             }
             let t = self.ms();
             let ticks = self.tick0.wrapping_add((self.frames as u128 * CORE_HZ as u128 / self.fs as u128) as u32);
-            let battery_code = self.battery_v.filter(|_| t % 100 == 0).map(|v| BOARD_DIVIDER.code(v));
+            let battery_code = self.battery_v.filter(|_| t.is_multiple_of(100)).map(|v| BOARD_DIVIDER.code(v));
             let inputs = Inputs { ticks, buttons: buttons(t), battery_code, command: if first { command } else { &[] } };
             first = false;
             app.step(rx, &inputs, &mut |e| seen.take(e));
