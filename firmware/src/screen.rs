@@ -9,7 +9,7 @@
 //!  y  9 ├────────────────────────────────────┤
 //!  y 11 │   ▲       │ -42.5 dBFS             │  guidance rose (x 0–42) │ strength, dBFS
 //!       │ ◀ ○ ▶     │ [██████░░░░░░░]        │  arrows toward the point │ bar: noise floor → full scale
-//!  y 43 │   ▼       │ 1.42 m ±0.05           │  over the sonde; ● over, │ depth below ground ± σ,
+//!  y 43 │   ▼       │ 1.42 +-0.05 m          │  over the sonde; ● over, │ depth below ground ± σ,
 //!       │           │                        │  ? unsure                │ or "-- <reason>"
 //!  y 55 └ CLIPPED MAINS / walk ahead ────────┘  warnings, else what to do next
 //! ```
@@ -264,22 +264,19 @@ fn arrow<D: DrawTarget<Color = BinaryColor>>(d: &mut D, tip: (i32, i32), len: i3
     Ok(())
 }
 
-/// A disc of radius `r` (or a one-pixel ring when `ring`) centred on (cx, cy).
-fn disc<D: DrawTarget<Color = BinaryColor>>(d: &mut D, cx: i32, cy: i32, r: i32, ring: bool) -> Result<(), D::Error> {
-    let half = |dy: i32| libm::sqrtf(((r * r - dy * dy) as f32).max(0.0)) as i32;
+/// A disc of radius `r` centred on (cx, cy), in `c`.
+fn disc<D: DrawTarget<Color = BinaryColor>>(d: &mut D, cx: i32, cy: i32, r: i32, c: BinaryColor) -> Result<(), D::Error> {
     for dy in -r..=r {
-        let w = half(dy);
-        if ring {
-            // The ring's pixels on this row: from the outer edge in to the next row's edge.
-            let inner = half(if dy < 0 { dy + 1 } else { dy - 1 }).min(w - 1).max(0);
-            let inner = if dy == -r || dy == r { -1 } else { inner };
-            fill(d, cx - w, cy + dy, (w - inner) as u32, 1, ON)?;
-            fill(d, cx + inner + 1, cy + dy, (w - inner) as u32, 1, ON)?;
-        } else {
-            fill(d, cx - w, cy + dy, (2 * w + 1) as u32, 1, ON)?;
-        }
+        let w = libm::sqrtf(((r * r - dy * dy) as f32).max(0.0) + 0.25) as i32;
+        fill(d, cx - w, cy + dy, (2 * w + 1) as u32, 1, c)?;
     }
     Ok(())
+}
+
+/// A ring: a disc of radius `r` with the disc of radius `r − 1` cleared.
+fn ring<D: DrawTarget<Color = BinaryColor>>(d: &mut D, cx: i32, cy: i32, r: i32) -> Result<(), D::Error> {
+    disc(d, cx, cy, r, ON)?;
+    disc(d, cx, cy, r - 1, BinaryColor::Off)
 }
 
 /// Draw `page` (the whole screen) into `d`.
@@ -365,7 +362,10 @@ fn draw_locate<D: DrawTarget<Color = BinaryColor>>(v: &View, d: &mut D) -> Resul
     s.clear();
     match v.depth {
         DepthLine::Shown { below_ground_m, sigma_m } => {
-            let _ = write!(s, "{} +-{}", length(below_ground_m, v.units).as_str(), length(sigma_m, v.units).as_str());
+            // "1.42 +-0.05 m" (one unit for both in metres), "4' 8\" +-0' 2\"".
+            let (a, b) = (length(below_ground_m, v.units), length(sigma_m, v.units));
+            let a = a.as_str().strip_suffix(" m").filter(|_| b.ends_with(" m")).unwrap_or(a.as_str());
+            let _ = write!(s, "{a} +-{}", b.as_str());
             text(d, &s, 48, 43, &FONT_6X10)?;
         }
         DepthLine::Withheld(w) => {
@@ -421,19 +421,19 @@ fn draw_battery<D: DrawTarget<Color = BinaryColor>>(v: &View, d: &mut D) -> Resu
 fn draw_rose<D: DrawTarget<Color = BinaryColor>>(v: &View, d: &mut D) -> Result<(), D::Error> {
     let (cx, cy) = (21, 31);
     if v.over() {
-        disc(d, cx, cy, 9, false)?;
-        return disc(d, cx, cy, 13, true);
+        ring(d, cx, cy, 13)?;
+        return disc(d, cx, cy, 9, ON);
     }
     if v.along == Along::Unsure && v.across == Across::Unsure {
         return text(d, "?", cx - 5, cy - 10, &FONT_10X20);
     }
-    disc(d, cx, cy, 3, true)?;
+    ring(d, cx, cy, 3)?;
     match v.along {
         Along::Ahead => arrow(d, (cx, 11), 13, 9, 0)?,
         Along::Behind => arrow(d, (cx, 51), 13, 9, 1)?,
         Along::Over => {
-            fill(d, cx - 9, cy - 7, 19, 2, ON)?;
-            fill(d, cx - 9, cy + 6, 19, 2, ON)?;
+            fill(d, cx - 7, cy - 7, 15, 2, ON)?;
+            fill(d, cx - 7, cy + 6, 15, 2, ON)?;
         }
         Along::Unsure => {
             text(d, "?", cx - 2, 13, &FONT_6X10)?;
@@ -444,8 +444,8 @@ fn draw_rose<D: DrawTarget<Color = BinaryColor>>(v: &View, d: &mut D) -> Result<
         Across::Left => arrow(d, (1, cy), 13, 9, 2)?,
         Across::Right => arrow(d, (41, cy), 13, 9, 3)?,
         Across::Centred => {
-            fill(d, cx - 7, cy - 9, 2, 19, ON)?;
-            fill(d, cx + 6, cy - 9, 2, 19, ON)?;
+            fill(d, cx - 7, cy - 7, 2, 15, ON)?;
+            fill(d, cx + 6, cy - 7, 2, 15, ON)?;
         }
         Across::Unsure => {
             text(d, "?", 3, cy - 5, &FONT_6X10)?;

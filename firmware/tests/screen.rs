@@ -84,7 +84,7 @@ fn the_rose_points_the_way_and_says_over_or_unsure() {
     let lit = |f: &Frame, r: (usize, usize, usize, usize)| f.lit(r.0, r.1, r.2, r.3);
     assert!(lit(&ahead, top) > 60);
     assert_eq!(lit(&ahead, bottom), 0);
-    assert!(ahead.pixel(14, 31) && ahead.pixel(27, 31));
+    assert!(ahead.pixel(14, 31) && ahead.pixel(27, 31) && !ahead.pixel(14, 39));
     assert!(!ahead.pixel(21, 31), "the centre ring is hollow");
     v.along = Along::Behind;
     v.across = Across::Left;
@@ -97,10 +97,16 @@ fn the_rose_points_the_way_and_says_over_or_unsure() {
     v.across = Across::Centred;
     v.depth = DepthLine::Shown { below_ground_m: 1.42, sigma_m: 0.05 };
     let over = drawn(&v);
-    // A filled disc of radius 9 and a ring of radius 13.
-    assert!(over.pixel(21, 31) && over.pixel(21, 23) && over.pixel(29, 31));
-    assert!(over.pixel(34, 31) && over.pixel(8, 31) && !over.pixel(32, 31));
-    assert!(shows(&over, "1.42 m +-0.05 m", 48, 43, &FONT_6X10, false));
+    // A filled disc of radius 9 inside a ring of radius 13, closed all round.
+    assert!(over.pixel(21, 31) && over.pixel(21, 23) && over.pixel(29, 31) && !over.pixel(31, 31));
+    assert!(over.pixel(34, 31) && over.pixel(8, 31) && over.pixel(21, 18) && over.pixel(21, 44));
+    for k in 0..72 {
+        let a = k as f32 * std::f32::consts::TAU / 72.0;
+        let (x, y) = (21.0 + 12.7 * a.cos(), 31.0 + 12.7 * a.sin());
+        let near = (-1..=1).any(|dx| (-1..=1).any(|dy| over.pixel((x.round() as i32 + dx) as usize, (y.round() as i32 + dy) as usize)));
+        assert!(near, "ring gap at {k}");
+    }
+    assert!(shows(&over, "1.42 +-0.05 m", 48, 43, &FONT_6X10, false));
     v.along = Along::Unsure;
     v.across = Across::Unsure;
     let unsure = drawn(&v);

@@ -231,6 +231,8 @@ pub struct SimRun {
     pub mains: undertone_dsp::detect::mains::MainsReport,
     /// Samples processed.
     pub samples: u64,
+    /// What the board's screen shows of each readout (same order as `rows`).
+    pub views: Vec<undertone_firmware::view::View>,
 }
 
 /// Run a scenario (optionally with another noise seed and bandwidth).
@@ -261,14 +263,16 @@ fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, b
     let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let mut synth = Synth::new(sc, seed);
     let mut rows = Vec::new();
+    let (mut views, ctx) = (Vec::new(), crate::screens::context(sc, &s));
     let mut frame = [0i32; N];
     while synth.next_codes(&mut frame) {
         if let Some(r) = rx.push_codes(&frame) {
             let shown = r.sample_index as f64 / synth.fs;
             rows.push(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown)))));
+            views.push(undertone_firmware::view::View::from_readout(&r, &ctx));
         }
     }
-    Ok(SimRun { rows, info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position() })
+    Ok(SimRun { rows, info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position(), views })
 }
 
 /// Run the receiver on recorded frames (codes), no truth.
