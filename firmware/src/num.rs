@@ -14,7 +14,7 @@
 //!   subnormals, overflow to infinity and underflow to zero. `core`'s parser
 //!   is also exact but carries a 20 KiB table of powers of five; this one finds
 //!   a candidate in `f64` and settles it by comparing the decimal exactly with
-//!   the midpoints to its neighbours, in a 512-bit integer (see [`Big`]).
+//!   the midpoints to its neighbours, in a 1024-bit integer.
 //!
 //! Both are checked against `core` on the host by property tests over every
 //! class of float (normal, subnormal, zero, infinities, NaN).

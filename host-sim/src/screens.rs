@@ -48,8 +48,13 @@ pub fn timeline(run: &SimRun, fs: f64) -> Vec<(u64, Page, Option<usize>)> {
     let mut shown: Option<usize> = None;
     let mut t = 0;
     while t <= end_ms {
-        while shown.map(|i| i + 1).unwrap_or(0) < run.rows.len() && run.rows[shown.map(|i| i + 1).unwrap_or(0)].t_latest_s * 1000.0 <= t as f64 {
-            shown = Some(shown.map(|i| i + 1).unwrap_or(0));
+        loop {
+            let next = shown.map_or(0, |i| i + 1);
+            if next < run.rows.len() && run.rows[next].t_latest_s * 1000.0 <= t as f64 {
+                shown = Some(next);
+            } else {
+                break;
+            }
         }
         let page = if t < CAUTION_MS {
             Page::Caution
@@ -107,9 +112,9 @@ pub fn stills(frames: &[(u64, Page, Option<usize>)]) -> Vec<(&'static str, usize
         _ => None,
     };
     let mut out = Vec::new();
-    let peak = (0..frames.len()).filter(|&i| strength(&frames[i].1).is_some()).max_by(|&a, &b| {
-        strength(&frames[a].1).unwrap_or(f32::MIN).total_cmp(&strength(&frames[b].1).unwrap_or(f32::MIN))
-    });
+    let peak = (0..frames.len())
+        .filter(|&i| strength(&frames[i].1).is_some())
+        .max_by(|&a, &b| strength(&frames[a].1).unwrap_or(f32::MIN).total_cmp(&strength(&frames[b].1).unwrap_or(f32::MIN)));
     if let Some(p) = peak {
         out.push(("peak", p));
         // A null: the weakest tone on the way in to the peak (the fore null of a walk along the
@@ -163,7 +168,12 @@ pub fn walk(sc: &Scenario, dir: &Path, seed: Option<u64>, out: &mut dyn std::io:
     let run = crate::run::simulate(sc, seed, None)?;
     let paths = write(&run, sc.receiver.sample_rate_hz, dir)?;
     let io = |e: std::io::Error| SimError::io(Path::new("<stdout>"), "write", e);
-    writeln!(out, "\nthe board's screen ({} refreshes a second, drawn by the firmware's own code):", undertone_firmware::screen::REFRESH_HZ).map_err(io)?;
+    writeln!(
+        out,
+        "\nthe board's screen ({} refreshes a second, drawn by the firmware's own code):",
+        undertone_firmware::screen::REFRESH_HZ
+    )
+    .map_err(io)?;
     for p in &paths {
         writeln!(out, "  {}", p.display()).map_err(io)?;
     }
