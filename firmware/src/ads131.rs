@@ -21,7 +21,8 @@
 //! GAIN1 0x04 (PGA gain code 0–7 = ×1 … ×128, 3 bits per channel, 4 bits apart),
 //! GAIN2 0x05 for channels 4–7.
 
-use crate::crc::crc16_ccitt;
+use crate::crc::crc16;
+use crate::queue::FrameProducer;
 use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::InputPin;
 use embedded_hal::spi::{Error as _, ErrorKind, SpiDevice};
@@ -147,6 +148,7 @@ pub struct Ads131<SPI, DRDY, D, const N: usize> {
     /// Counters.
     pub stats: AdcStats,
     gains: [u8; N],
+    osr: Option<Osr>,
 }
 
 /// Put a 16-bit value in the top of a 24-bit word.
@@ -170,7 +172,7 @@ pub fn get_code(buf: &[u8], i: usize) -> i32 {
 /// Check a received frame of `n` channels: CRC over all words before the CRC word.
 pub fn check_frame(buf: &[u8], n: usize) -> Result<(), AdcError> {
     let crc_at = (n + 1) * WORD;
-    let computed = crc16_ccitt(0xFFFF, &buf[..crc_at]);
+    let computed = crc16(&buf[..crc_at]);
     let received = get_word(buf, n + 1);
     if computed == received {
         Ok(())
@@ -187,7 +189,7 @@ impl<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize> Ads131<SPI, DRD
     pub fn new(spi: SPI, drdy: DRDY, delay: D) -> Self {
         #[allow(clippy::let_unit_value)]
         let _ = Self::SHAPE;
-        Self { spi, drdy, delay, stats: AdcStats::default(), gains: [0; N] }
+        Self { spi, drdy, delay, stats: AdcStats::default(), gains: [0; N], osr: None }
     }
 
     /// Give back the parts.
@@ -205,9 +207,15 @@ impl<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize> Ads131<SPI, DRD
         f(&mut self.spi)
     }
 
-    /// Gain codes in force (0–7 = ×1 … ×128).
+    /// Gain codes in force as far as the driver knows (0–7 = ×1 … ×128): after a reset
+    /// that was not followed by a successful gain write, the reset value ×1.
     pub fn gains(&self) -> [u8; N] {
         self.gains
+    }
+
+    /// The output rate set by the last [`Ads131::init`].
+    pub fn osr(&self) -> Option<Osr> {
+        self.osr
     }
 
     /// One frame: send `command` (and `data` in the second word), return what came back.
@@ -242,6 +250,9 @@ impl<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize> Ads131<SPI, DRD
             }
         }
         self.frame(cmd::RESET, None)?;
+        // The reset sets every gain to ×1 until the new gains are written.
+        self.gains = [0; N];
+        self.osr = Some(osr);
         // The data sheet allows a few microseconds after reset; wait 1 ms.
         self.delay.delay_ms(1);
         let r = self.checked(cmd::NULL, None)?;
@@ -250,8 +261,12 @@ impl<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize> Ads131<SPI, DRD
             return Err(AdcError::BadResponse { expected: want, got: get_word(&r, 0) });
         }
         self.write_reg(reg::CLOCK, osr.clock_reg(N))?;
+        let reset = self.gains;
         self.gains = gains;
-        self.write_gains()?;
+        if let Err(e) = self.write_gains() {
+            self.gains = reset;
+            return Err(e);
+        }
         let clock = self.read_reg(reg::CLOCK)?;
         if clock != osr.clock_reg(N) {
             return Err(AdcError::BadResponse { expected: osr.clock_reg(N), got: clock });
@@ -361,5 +376,19 @@ impl<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize> Ads131<SPI, DRD
             }
         }
         Err(AdcError::Timeout)
+    }
+}
+
+/// The data-ready interrupt's work: read one frame into the queue; a frame the
+/// driver rejects (CRC, bus) is counted for the supervisor, a full queue as an overrun.
+pub fn read_into<SPI: SpiDevice, DRDY: InputPin, D: DelayNs, const N: usize>(
+    adc: &mut Ads131<SPI, DRDY, D, N>,
+    tx: &mut FrameProducer<'_, N>,
+) {
+    match adc.read() {
+        Ok(f) => {
+            tx.push(f);
+        }
+        Err(_) => tx.bad_frame(),
     }
 }

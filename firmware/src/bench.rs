@@ -157,3 +157,43 @@ pub fn six_coil_fit_warm(reps: u32, clock: &mut dyn FnMut() -> u64) -> u64 {
     }
     spent
 }
+
+/// Drawing the locating screen `reps` times (a walking readout, a depth readout), frame buffer
+/// and checksum included: the screen's share of a refresh, without the transfer to the panel.
+pub fn screen(reps: u32, clock: &mut dyn FnMut() -> u64) -> u64 {
+    use crate::screen::{draw, Frame, Page};
+    use crate::view::{DepthLine, View};
+    use undertone_dsp::format::LengthUnit;
+    use undertone_dsp::locate::depth::Withheld;
+    use undertone_dsp::locate::guidance::{Across, Along, Hint};
+    use undertone_dsp::locate::orientation::Orientation;
+    let mut v = View {
+        t_s: 1.0,
+        strength_dbfs: Some(-42.5),
+        bar: 0.6,
+        orientation: Orientation::InLine,
+        along: Along::Ahead,
+        across: Across::Centred,
+        hint: Hint::WalkAhead,
+        depth: DepthLine::Withheld(Withheld::NotOver),
+        beacon_hz: 512.0,
+        units: LengthUnit::Metres,
+        battery: None,
+        warnings: heapless::Vec::new(),
+        muted: false,
+    };
+    let mut frame = Frame::new();
+    let mut sum = 0u32;
+    let t0 = clock();
+    for i in 0..reps {
+        if i % 2 == 1 {
+            v.along = Along::Over;
+            v.depth = DepthLine::Shown { below_ground_m: 1.1, sigma_m: 0.04 };
+        }
+        let _ = draw(&Page::Locate(v.clone()), &mut frame);
+        sum = sum.wrapping_add(frame.checksum());
+    }
+    let spent = clock().wrapping_sub(t0);
+    core::hint::black_box(sum);
+    spent
+}

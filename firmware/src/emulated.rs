@@ -1,5 +1,6 @@
 //! An emulated converter and the emulation run shared by the emulator image
-//! and its host twin.
+//! and its host twin: the very [`App`] the board runs, fed through the same
+//! driver, queue and interrupt work, with a screen in RAM.
 //!
 //! [`FakeAdc`] stands in for the converter on the SPI side: it answers the same
 //! command words, keeps the registers the driver writes, applies the PGA gains
@@ -10,16 +11,18 @@
 //! Everything is integer or IEEE-754 single precision with software `libm`, so
 //! the host and the Cortex-M4F compute the same numbers.
 
-use crate::ads131::{cmd, get_word, Ads131, Osr, MAX_FRAME, WORD};
-use crate::app::{readout_line, App, REPLY};
-use crate::crc::crc16_ccitt;
-use crate::protocol::{LineBuffer, LineEvent};
-use crate::queue::FrameQueue;
+use crate::ads131::{cmd, get_word, read_into, Ads131, Osr, MAX_FRAME, WORD};
+use crate::app::{readout_line, App, Event, Hardware, Inputs, Shared, REPLY};
+use crate::battery::BOARD_DIVIDER;
+use crate::crc::crc16;
+use crate::queue::{split, FrameQueue, PathCounts};
+use crate::screen::{Frame, Page};
 use crate::settings::Settings;
-use crate::storage::{LoadOutcome, RamFlash, Store};
-use core::cell::Cell;
+use crate::storage::{RamFlash, Store};
+use core::cell::{Cell, RefCell};
 use core::convert::Infallible;
 use core::fmt::Write;
+use critical_section::Mutex;
 use embedded_hal::spi::{Operation, SpiDevice};
 use heapless::String;
 use undertone_dsp::field::Source;
@@ -188,7 +191,7 @@ impl<'a, S: SampleSource<N>, const N: usize> FakeAdc<'a, S, N> {
             let v = v.clamp(-(1 << 23), (1 << 23) - 1) as i32;
             put(&mut out, c + 1, (v as u32) & 0xFF_FFFF);
         }
-        let crc = crc16_ccitt(0xFFFF, &out[..(N + 1) * WORD]);
+        let crc = crc16(&out[..(N + 1) * WORD]);
         put(&mut out, N + 1, (crc as u32) << 8);
         self.frames += 1;
         if self.corrupt_every > 0 && self.frames.is_multiple_of(self.corrupt_every) {
@@ -233,14 +236,16 @@ impl<S: SampleSource<N>, const N: usize> SpiDevice<u8> for FakeAdc<'_, S, N> {
 /// What an emulation run measured.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct EmuReport {
-    /// Frames read.
+    /// Frames converted.
     pub frames: u32,
     /// Readouts produced.
     pub readouts: u32,
-    /// Clock units spent in the receiver (application core), from `clock`.
-    pub receiver_clock: u64,
-    /// Clock units spent in the driver reading frames.
-    pub driver_clock: u64,
+    /// Screen refreshes.
+    pub screens: u32,
+    /// Clock units spent in the application's step (everything the main loop does).
+    pub app_clock: u64,
+    /// Clock units spent in the interrupt work (driver reading frames into the queue).
+    pub isr_clock: u64,
     /// Gain steps carried out.
     pub gain_steps: u32,
     /// Frames rejected by the driver.
@@ -254,11 +259,16 @@ pub const EMU_FRAMES: u32 = 96_000;
 pub const EMU_START_M: f32 = -1.5;
 /// Walking speed of the emulated receiver, m/s.
 pub const EMU_SPEED_M_S: f32 = 0.5;
-
 /// Sample rate of the emulation, Hz.
 pub const EMU_OSR: Osr = Osr::R256;
 /// Depth of the sonde below the lower coil in the emulation, m.
 pub const EMU_DEPTH_M: f32 = 1.2;
+/// Conversions completed between two passes of the main loop (1 ms at 16 kSPS).
+pub const EMU_FRAMES_PER_PASS: u32 = 16;
+/// The emulated board's core clock, Hz: the tick counter the application reads.
+pub const EMU_CORE_HZ: u32 = 100_000_000;
+/// Battery voltage of the emulated board, V.
+pub const EMU_BATTERY_V: f32 = 3.9;
 
 /// Coil amplitudes (codes) of a level 512 Hz sonde `EMU_DEPTH_M` below the reference head,
 /// strongest coil at a quarter of full scale.
@@ -274,7 +284,38 @@ pub fn emu_amplitudes() -> [f32; 4] {
     a
 }
 
-static QUEUE: FrameQueue<4, 32> = FrameQueue::new();
+/// Button levels (− OK +) the emulated person presses at `t_ms`: after the walk, open the
+/// menu, step down once, come back (so the menu is drawn and compared too).
+pub fn emu_buttons(t_ms: u64) -> [bool; 3] {
+    let ok = (4_600..4_700).contains(&t_ms) || (5_000..6_000).contains(&t_ms);
+    let plus = (4_800..4_900).contains(&t_ms);
+    [false, ok, plus]
+}
+
+/// Commands typed at start-up, through the same parser the RTT channel feeds.
+pub const EMU_COMMANDS: &[u8] = b"rate 20\nfreq 99999\ncal strength 1e-40\ncoil 3 pos 0 0 -0.4\nheight 0.1\nsave\nshow\n";
+
+/// One line describing a screen refresh: `S <t_ms> <checksum> <what>`, where `what` is
+/// `locate <along> <across> <depth|-->`, `caution`, `starting` or `text <title>`.
+pub fn screen_line(t_ms: u64, checksum: u32, page: &Page, out: &mut String<REPLY>) {
+    out.clear();
+    let _ = write!(out, "S {t_ms} {checksum:08x} ");
+    let _ = match page {
+        Page::Caution => write!(out, "caution"),
+        Page::Starting => write!(out, "starting"),
+        Page::Locate(v) => write!(
+            out,
+            "locate {} {} {}",
+            v.along.name(),
+            v.across.name(),
+            match v.depth {
+                crate::view::DepthLine::Shown { .. } => "depth",
+                crate::view::DepthLine::Withheld(w) => w.name(),
+            }
+        ),
+        Page::Text(t) => write!(out, "text {}", t.title.as_str()),
+    };
+}
 
 /// Run the emulation for `frames` conversions. `clock` reads a free-running
 /// counter (instructions on the target, anything on the host); `out` receives
@@ -283,35 +324,6 @@ pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str
     let mut rep = EmuReport::default();
     let mut line: String<REPLY> = String::new();
     let fs = EMU_OSR.rate_hz();
-    // Settings from a RAM flash, as the board loads them from its last sector.
-    let mut store = match Store::new(RamFlash::<4096>::new(), 0, 4096) {
-        Ok(s) => s,
-        Err(_) => return rep,
-    };
-    let (settings, outcome) = store.load(Settings::defaults());
-    let _ = write!(line, "I settings: {}", if outcome == LoadOutcome::Empty { "no record, defaults" } else { "loaded" });
-    out(&line);
-    let fsc = 8_388_607;
-    let (mut app, err) = match App::new(settings, Settings::defaults(), fs, fsc, [1.0 / fsc as f32; 4]) {
-        Ok(a) => a,
-        Err(_) => return rep,
-    };
-    if err.is_some() {
-        out("I settings refused, defaults in force");
-    }
-    // A few commands through the same parser the RTT channel feeds.
-    let mut lb = LineBuffer::new();
-    for &b in b"rate 20\nfreq 99999\nsave\nshow\n" {
-        if let LineEvent::Line(l) = lb.push(b) {
-            let mut reply: String<REPLY> = String::new();
-            if app.command(&l, &mut reply) == crate::app::Effect::Save {
-                let _ = store.save(app.settings());
-            }
-            line.clear();
-            let _ = write!(line, "C {} -> {}", l.as_str(), reply.as_str());
-            out(&line);
-        }
-    }
     let ready = Cell::new(false);
     let mut fake = FakeAdc::new(Synthetic::<4>::walking(512.0, fs, EMU_DEPTH_M, EMU_START_M, EMU_SPEED_M_S, 2_097_152.0, 3000), &ready);
     fake.corrupt_every = 997;
@@ -320,53 +332,139 @@ pub fn run(frames: u32, clock: &mut dyn FnMut() -> u64, out: &mut dyn FnMut(&str
         out("E converter did not initialise");
         return rep;
     }
-    let mut done = 0;
-    while done < frames {
-        // Sixteen conversions complete; on the board the data-ready interrupt runs after each,
-        // while the main loop is busy elsewhere.
-        for _ in 0..16.min(frames - done) {
-            adc.with_spi(|s| s.convert());
-            let t0 = clock();
-            if adc.data_ready().unwrap_or(false) {
-                match adc.read() {
-                    Ok(f) => {
-                        QUEUE.push(f);
-                    }
-                    Err(_) => rep.rejected += 1,
-                }
+    let adc = Mutex::new(RefCell::new(Some(adc)));
+    let mut queue: FrameQueue<4, 64> = FrameQueue::new();
+    let counts = PathCounts::new();
+    let (mut tx, mut rx) = split(&mut queue, &counts);
+    let store = match Store::new(RamFlash::<4096>::new(), 0, 4096) {
+        Ok(s) => s,
+        Err(_) => return rep,
+    };
+    let fsc = 8_388_607;
+    let hw =
+        Hardware { fs, full_scale_code: fsc, unity_scale: [1.0 / fsc as f32; 4], ticks_per_ms: EMU_CORE_HZ / 1000, divider: BOARD_DIVIDER };
+    let ticks_per_frame = (EMU_CORE_HZ as f32 / fs) as u32;
+    let mut print = |e: Event<'_, 4>, rep: &mut EmuReport, line: &mut String<REPLY>| {
+        match e {
+            Event::Readout(r) => {
+                rep.readouts += 1;
+                readout_line(r, line);
             }
-            rep.driver_clock += clock().wrapping_sub(t0);
+            Event::Reply(t) => {
+                line.clear();
+                let _ = write!(line, "C {t}");
+            }
+            Event::Note(t) => {
+                line.clear();
+                let _ = write!(line, "I {t}");
+            }
+            Event::Screen { t_ms, frame, page } => {
+                rep.screens += 1;
+                screen_line(t_ms, frame.checksum(), page, line);
+            }
+        }
+        out(line);
+    };
+    let mut app = match App::new(hw, Settings::defaults(), Shared(&adc), Frame::new(), store, 0, &mut |e| print(e, &mut rep, &mut line)) {
+        Ok(a) => a,
+        Err(_) => {
+            out("E factory settings do not build");
+            return rep;
+        }
+    };
+    let mut done = 0;
+    let mut passes = 0u64;
+    let battery = BOARD_DIVIDER.code(EMU_BATTERY_V);
+    while done < frames {
+        // Conversions complete; on the board the data-ready interrupt runs after each.
+        for _ in 0..EMU_FRAMES_PER_PASS.min(frames - done) {
+            let t0 = clock();
+            critical_section::with(|cs| {
+                if let Some(a) = adc.borrow_ref_mut(cs).as_mut() {
+                    a.with_spi(|s| s.convert());
+                    if a.data_ready().unwrap_or(false) {
+                        read_into(a, &mut tx);
+                    }
+                }
+            });
+            rep.isr_clock += clock().wrapping_sub(t0);
             done += 1;
         }
-        // Main loop: drain the queue into the receiver, a burst at a time.
-        let mut burst = [[0i32; 4]; 32];
-        let mut k = 0;
-        while let Some(f) = QUEUE.pop() {
-            burst[k] = f;
-            k += 1;
-        }
-        rep.frames += k as u32;
+        let ticks = (done as u64 * ticks_per_frame as u64) as u32;
+        let t_ms = done as u64 * 1000 / fs as u64;
+        let inputs = Inputs {
+            ticks,
+            buttons: emu_buttons(t_ms),
+            battery_code: passes.is_multiple_of(100).then_some(battery),
+            command: if passes == 0 { EMU_COMMANDS } else { &[] },
+        };
+        let before = app.gains();
         let t0 = clock();
-        let mut pending: heapless::Vec<undertone_dsp::Readout<4>, 4> = heapless::Vec::new();
-        app.process_block(&burst[..k], |r| {
-            let _ = pending.push(r);
-        });
-        rep.receiver_clock += clock().wrapping_sub(t0);
-        for r in pending.iter() {
-            rep.readouts += 1;
-            readout_line(r, &mut line);
-            out(&line);
-            if let Some(g) = r.gain_request {
-                let ch = g.channel as usize;
-                let old = adc.gains()[ch];
-                let new = if g.up { old.saturating_add(1).min(7) } else { old.saturating_sub(1) };
-                if new != old && adc.set_gain(ch, new).is_ok() {
-                    app.gain_changed(ch, if new > old { 2.0 } else { 0.5 });
-                    rep.gain_steps += 1;
-                }
-            }
-        }
-        app.note_overruns(QUEUE.take_overruns());
+        app.step(&mut rx, &inputs, &mut |e| print(e, &mut rep, &mut line));
+        rep.app_clock += clock().wrapping_sub(t0);
+        rep.gain_steps += before.iter().zip(app.gains().iter()).filter(|(a, b)| a != b).count() as u32;
+        passes += 1;
+    }
+    rep.frames = done;
+    rep.rejected = critical_section::with(|cs| adc.borrow_ref(cs).as_ref().map(|a| a.stats.crc_errors).unwrap_or(0));
+    // The screen as the panel holds it must be the frame last drawn.
+    if app.panel() != app.frame() {
+        out("E the panel does not hold the last frame drawn");
     }
     rep
+}
+
+/// A converter modelled without its bus, for host tests of the application: it
+/// makes frames from a [`SampleSource`] with its PGA gains applied (clamped to 24
+/// bits), and its restarts can be made to fail or to come back at gain ×1.
+pub struct ModelConverter<S, const N: usize> {
+    source: S,
+    gains: [u8; N],
+    /// Restarts so far.
+    pub restarts: u32,
+    /// Gain changes so far.
+    pub gain_changes: u32,
+    /// Restarts reset the converter but do not take the gains back (as a part that
+    /// answered the reset and then failed the gain write).
+    pub restart_loses_gains: bool,
+}
+
+impl<S: SampleSource<N>, const N: usize> ModelConverter<S, N> {
+    /// A converter fed by `source`, at gain ×1.
+    pub fn new(source: S) -> Self {
+        Self { source, gains: [0; N], restarts: 0, gain_changes: 0, restart_loses_gains: false }
+    }
+
+    /// The next conversion, as the converter sends it (gains applied).
+    pub fn frame(&mut self) -> [i32; N] {
+        let x = self.source.next();
+        let mut out = [0i32; N];
+        for c in 0..N {
+            out[c] = ((x[c] as i64) << self.gains[c]).clamp(-(1 << 23), (1 << 23) - 1) as i32;
+        }
+        out
+    }
+}
+
+impl<S, const N: usize> crate::app::Converter<N> for ModelConverter<S, N> {
+    fn restart(&mut self, gains: [u8; N]) -> Result<(), crate::ads131::AdcError> {
+        self.restarts += 1;
+        if self.restart_loses_gains {
+            self.gains = [0; N];
+            return Err(crate::ads131::AdcError::Timeout);
+        }
+        self.gains = gains;
+        Ok(())
+    }
+    fn set_gain(&mut self, channel: usize, code: u8) -> Result<(), crate::ads131::AdcError> {
+        if channel >= N || code > 7 {
+            return Err(crate::ads131::AdcError::BadGain { channel: channel as u8, code });
+        }
+        self.gains[channel] = code;
+        self.gain_changes += 1;
+        Ok(())
+    }
+    fn gains(&mut self) -> [u8; N] {
+        self.gains
+    }
 }

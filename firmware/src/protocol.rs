@@ -11,9 +11,13 @@
 //! | `band <Hz>` / `band auto` | detection bandwidth (auto: the preset's default) |
 //! | `detector lockin <1-4>` / `detector block rect\|hann\|bh4` | detector kind |
 //! | `rate <Hz>` | readouts per second |
-//! | `units metric` / `units imperial` | display units |
+//! | `units metric` / `units imperial` | display units (screen, replies, log) |
+//! | `height <m>` | height of the lower coil centre above the ground |
+//! | `distance <m>` | sonde distance for the calibration and the pre-job check |
 //! | `coil <i> pos <x> <y> <z>` / `coil <i> axis <x> <y> <z>` / `coil <i> gain <g>` | head geometry |
-//! | `cal upper <factor>` / `cal strength <K> [<sigma>]` / `cal clear` | calibration |
+//! | `cal upper <factor>` / `cal strength <K> [<sigma>]` / `cal clear` / `cal run` | calibration (`run`: measure it now) |
+//! | `check` | the pre-job check (sonde at the set distance below the head) |
+//! | `scan` | look for beacon tones on the lower along coil |
 //! | `save` / `show` / `defaults` / `help` | store, print, restore factory settings, list commands |
 //!
 //! Replies: `ok …` or `err …`. An out-of-range value is refused and the old
@@ -51,6 +55,16 @@ pub enum Command {
     CalStrength(f32, f32),
     /// Forget the calibration.
     CalClear,
+    /// Measure the calibration now.
+    CalRun,
+    /// Coil height above the ground, m.
+    Height(f32),
+    /// Calibration and check distance, m.
+    Distance(f32),
+    /// Run the pre-job check.
+    Check,
+    /// Scan for beacon tones.
+    Scan,
     /// Store settings.
     Save,
     /// Print settings.
@@ -162,9 +176,14 @@ pub fn parse(line: &str) -> Result<Command, ParseError<'_>> {
                 Command::CalStrength(k, s)
             }
             Some("clear") => Command::CalClear,
-            Some(o) => return Err(ParseError::BadWord { given: o, allowed: "upper, strength, clear" }),
-            None => return Err(ParseError::Missing("upper, strength or clear")),
+            Some("run") => Command::CalRun,
+            Some(o) => return Err(ParseError::BadWord { given: o, allowed: "upper, strength, clear, run" }),
+            None => return Err(ParseError::Missing("upper, strength, clear or run")),
         },
+        "height" => Command::Height(num(w.next(), "height in m")?),
+        "distance" => Command::Distance(num(w.next(), "distance in m")?),
+        "check" => Command::Check,
+        "scan" => Command::Scan,
         "save" => Command::Save,
         "show" => Command::Show,
         "defaults" => Command::Defaults,

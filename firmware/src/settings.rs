@@ -1,14 +1,14 @@
 //! The settings a person can change on the receiver, and how they become the
 //! DSP pipeline's settings.
 //!
-//! Edited through the command protocol, stored in flash, validated by building
-//! a `Receiver` before they are taken into use (a setting that fails to build
-//! keeps the old one and says why).
+//! Edited through the command protocol or the buttons, stored in flash,
+//! validated by building a `Receiver` before they are taken into use (a setting
+//! that fails to build keeps the old one and says why).
 
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::format::LengthUnit;
 use undertone_dsp::locate::calibration::Calibration;
-use undertone_dsp::{Beacon, ConfigError, DetectorKind, DetectorSettings, Head, Receiver, ReceiverSettings};
+use undertone_dsp::{Beacon, ConfigError, DetectorKind, DetectorSettings, Head, LocatorSettings, Receiver, ReceiverSettings};
 
 /// Everything the firmware stores.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -21,12 +21,16 @@ pub struct Settings<const N: usize> {
     pub kind: DetectorKind,
     /// Readouts per second.
     pub readout_hz: f32,
-    /// Display units.
+    /// Display units (screen, replies and log).
     pub units: LengthUnit,
     /// Coil head.
     pub head: Head<N>,
     /// Calibration.
     pub calibration: Calibration,
+    /// Height of the lower coil centre above the ground, m (depth below ground = depth − this).
+    pub coil_height_m: f32,
+    /// Distance from the lower coil centre to the sonde for the calibration and the pre-job check, m.
+    pub check_distance_m: f32,
 }
 
 impl Settings<4> {
@@ -47,6 +51,8 @@ impl<const N: usize> Settings<N> {
             units: LengthUnit::Metres,
             head,
             calibration: Calibration::default(),
+            coil_height_m: LocatorSettings::default().coil_height_m,
+            check_distance_m: 1.0,
         }
     }
 
@@ -60,6 +66,7 @@ impl<const N: usize> Settings<N> {
         let input = InputScale { scale, full_scale_code, full_scale: 1.0 };
         let mut s = ReceiverSettings::new(det, input, self.head);
         s.locator.calibration = self.calibration;
+        s.locator.coil_height_m = self.coil_height_m;
         s
     }
 

@@ -3,15 +3,15 @@
 //! The converter delivers a frame every `1/fs`; if none arrives for
 //! [`STALL_MS`], or [`MAX_BAD_FRAMES`] frames in a row fail their CRC, the
 //! firmware enters the reported fault state and re-initialises the converter,
-//! retrying every [`RETRY_MS`]. The watchdog is fed only while the main loop
-//! runs, so a hang resets the board.
+//! retrying every [`RETRY_MS`]. Times are milliseconds of the monotonic
+//! 64-bit clock ([`crate::clock::Uptime`]), which does not wrap.
 
 /// No frame for this long is a stall, ms.
-pub const STALL_MS: u32 = 100;
+pub const STALL_MS: u64 = 100;
 /// This many bad frames in a row is a fault.
 pub const MAX_BAD_FRAMES: u32 = 16;
 /// Time between re-initialisation attempts, ms.
-pub const RETRY_MS: u32 = 500;
+pub const RETRY_MS: u64 = 500;
 
 /// The state of the sample path.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -39,32 +39,32 @@ pub enum Action {
 pub struct Supervisor {
     /// State.
     pub state: PathState,
-    last_frame_ms: u32,
-    last_try_ms: u32,
+    last_frame_ms: u64,
+    last_try_ms: u64,
     bad_in_row: u32,
 }
 
 impl Supervisor {
     /// Start watching at `now_ms`.
-    pub fn new(now_ms: u32) -> Self {
+    pub fn new(now_ms: u64) -> Self {
         Self { state: PathState::Running, last_frame_ms: now_ms, last_try_ms: now_ms, bad_in_row: 0 }
     }
 
     /// A good frame arrived.
-    pub fn good_frame(&mut self, now_ms: u32) {
+    pub fn good_frame(&mut self, now_ms: u64) {
         self.last_frame_ms = now_ms;
         self.bad_in_row = 0;
         self.state = PathState::Running;
     }
 
-    /// A frame failed (CRC, SPI error).
-    pub fn bad_frame(&mut self) {
-        self.bad_in_row = self.bad_in_row.saturating_add(1);
+    /// `n` frames failed (CRC, SPI error).
+    pub fn bad_frames(&mut self, n: u32) {
+        self.bad_in_row = self.bad_in_row.saturating_add(n);
     }
 
-    /// Check at `now_ms` (wrapping millisecond clock).
-    pub fn poll(&mut self, now_ms: u32) -> Action {
-        let stalled = now_ms.wrapping_sub(self.last_frame_ms) > STALL_MS;
+    /// Check at `now_ms`.
+    pub fn poll(&mut self, now_ms: u64) -> Action {
+        let stalled = now_ms.saturating_sub(self.last_frame_ms) > STALL_MS;
         let bad = self.bad_in_row >= MAX_BAD_FRAMES;
         match self.state {
             PathState::Running if stalled || bad => {
@@ -73,9 +73,10 @@ impl Supervisor {
                 self.bad_in_row = 0;
                 Action::Reinit
             }
-            PathState::Fault { retries } if now_ms.wrapping_sub(self.last_try_ms) >= RETRY_MS => {
+            PathState::Fault { retries } if now_ms.saturating_sub(self.last_try_ms) >= RETRY_MS => {
                 self.state = PathState::Fault { retries: retries.saturating_add(1) };
                 self.last_try_ms = now_ms;
+                self.bad_in_row = 0;
                 Action::Reinit
             }
             _ => Action::None,

@@ -6,7 +6,7 @@ use embedded_hal_mock::eh1::delay::NoopDelay;
 use embedded_hal_mock::eh1::digital::{Mock as PinMock, State, Transaction as PinT};
 use embedded_hal_mock::eh1::spi::{Mock as SpiMock, Transaction as SpiT};
 use undertone_firmware::ads131::{AdcError, Ads131, Osr};
-use undertone_firmware::crc::crc16_ccitt;
+use undertone_firmware::crc::crc16;
 
 const N: usize = 4;
 const FRAME: usize = (N + 2) * 3;
@@ -35,7 +35,7 @@ fn rx(resp: u16, codes: [i32; N]) -> Vec<u8> {
         b[4 + 3 * i] = (v >> 8) as u8;
         b[5 + 3 * i] = v as u8;
     }
-    let crc = crc16_ccitt(0xFFFF, &b[..(N + 1) * 3]);
+    let crc = crc16(&b[..(N + 1) * 3]);
     b[(N + 1) * 3..(N + 1) * 3 + 2].copy_from_slice(&crc.to_be_bytes());
     b
 }

@@ -2,18 +2,25 @@
 //! setting in force, and no input makes the parser panic or overflow.
 
 use proptest::prelude::*;
-use undertone_firmware::app::{App, Effect, REPLY};
-use undertone_firmware::protocol::{parse, Command, LineBuffer, LineEvent, ParseError, MAX_LINE};
-use undertone_firmware::settings::Settings;
+mod common;
 
-fn app() -> App<4> {
-    App::new(Settings::defaults(), Settings::defaults(), 16_000.0, 8_388_607, [1.0 / 8_388_607.0; 4]).unwrap().0
+use common::{Rig, Seen};
+use undertone_firmware::app::REPLY;
+use undertone_firmware::emulated::{emu_amplitudes, Synthetic};
+use undertone_firmware::protocol::{parse, Command, LineBuffer, LineEvent, ParseError, MAX_LINE};
+use undertone_firmware::storage::RamFlash;
+
+fn app() -> Rig<Synthetic<4>> {
+    common::app(Synthetic::new(512.0, 16_000.0, emu_amplitudes(), 100), 16_000.0, RamFlash::new(), &mut Seen::default())
 }
 
-fn say(a: &mut App<4>, line: &str) -> (String, Effect) {
-    let mut out = heapless::String::<REPLY>::new();
-    let e = a.command(line, &mut out);
-    (out.as_str().to_string(), e)
+/// The reply to a line (and whether it saved: the store's log grows).
+fn say(a: &mut Rig<Synthetic<4>>, line: &str) -> (String, bool) {
+    let mut seen = Seen::default();
+    a.command(line, &mut |e| seen.take(e));
+    let r = seen.replies.pop().unwrap_or_default();
+    let saved = r.starts_with("ok save");
+    (r, saved)
 }
 
 #[test]
@@ -25,6 +32,11 @@ fn commands_parse() {
     assert_eq!(parse("coil 3 pos 0 0 0.4"), Ok(Command::CoilPos(3, [0.0, 0.0, 0.4])));
     assert_eq!(parse("cal strength 2.5e-8 1e-10"), Ok(Command::CalStrength(2.5e-8, 1e-10)));
     assert_eq!(parse("units imperial"), Ok(Command::Imperial(true)));
+    assert_eq!(parse("height 0.25"), Ok(Command::Height(0.25)));
+    assert_eq!(parse("distance 1.5"), Ok(Command::Distance(1.5)));
+    assert_eq!(parse("cal run"), Ok(Command::CalRun));
+    assert_eq!(parse("check"), Ok(Command::Check));
+    assert_eq!(parse("scan"), Ok(Command::Scan));
     assert_eq!(parse("frob"), Err(ParseError::Unknown("frob")));
     assert_eq!(parse("freq abc"), Err(ParseError::NotANumber("abc")));
     assert_eq!(parse("freq"), Err(ParseError::Missing("frequency in Hz")));
@@ -50,12 +62,12 @@ fn refused_values_leave_old_settings_in_force() {
     let (r, _) = say(&mut a, "coil 7 gain 2");
     assert!(r.starts_with("err channel count 7"), "{r}");
     let (r, _) = say(&mut a, "coil 1 axis 0 0 0");
-    assert!(r.starts_with("err coil head geometry"), "{r}");
+    assert!(r.starts_with("err coil 1 axis length 0"), "{r}");
     let (r, _) = say(&mut a, "cal upper 3");
     assert!(r.starts_with("err calibration input 3"), "{r}");
     assert_eq!(say(&mut a, "cal upper 1.02").0, "ok cal");
     assert_eq!(a.settings().calibration.upper_gain, 1.02);
-    assert_eq!(say(&mut a, "save"), ("ok save".to_string(), Effect::Save));
+    assert_eq!(say(&mut a, "save"), ("ok save (slot 0)".to_string(), true));
     assert!(say(&mut a, "show").0.starts_with("ok freq 640 Hz"));
     assert_eq!(say(&mut a, "defaults").0, "ok defaults");
     assert_eq!(a.settings().beacon_hz, 512.0);
@@ -100,10 +112,10 @@ proptest! {
 
     #[test]
     fn command_shaped_lines_never_panic(
-        w in prop::sample::select(vec!["freq", "band", "detector", "rate", "units", "coil", "cal", "save", "show", "defaults", "help", "zap"]),
+        w in prop::sample::select(vec!["freq", "band", "detector", "rate", "units", "height", "distance", "coil", "cal", "check", "scan", "save", "show", "defaults", "help", "zap"]),
         args in prop::collection::vec(prop_oneof![
             Just("lockin".to_string()), Just("block".to_string()), Just("pos".to_string()), Just("axis".to_string()),
-            Just("gain".to_string()), Just("upper".to_string()), Just("strength".to_string()), Just("auto".to_string()),
+            Just("gain".to_string()), Just("upper".to_string()), Just("strength".to_string()), Just("auto".to_string()), Just("run".to_string()),
             Just("inf".to_string()), Just("-0".to_string()), Just("1e39".to_string()), Just("255".to_string()),
             any::<f32>().prop_map(|v| v.to_string()), any::<u8>().prop_map(|v| v.to_string()),
         ], 0..6),

@@ -7,6 +7,7 @@
 //! * [`report`], [`plots`]: tables, summaries, cautions, PNG/SVG plots.
 //! * [`wav`]: recordings in and out.
 //! * [`sweep`], [`depthcheck`], [`map`]: the analysis commands; [`stats`]: their confidence intervals.
+//! * [`screens`]: what the board's screen shows during a run (GIF and PNG stills).
 
 pub mod commands;
 pub mod depthcheck;
@@ -26,6 +27,7 @@ pub mod report;
 pub mod run;
 pub mod scenario;
 pub mod score;
+pub mod screens;
 pub mod stats;
 pub mod sweep;
 pub mod synth;

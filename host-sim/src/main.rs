@@ -29,6 +29,9 @@ enum Command {
         /// Print one JSON object per readout instead of the report.
         #[arg(long)]
         json: bool,
+        /// Also write what the board's screen shows: screens.gif and PNG stills.
+        #[arg(long)]
+        screens: bool,
     },
     /// Run a scenario file.
     Walk {
@@ -43,6 +46,9 @@ enum Command {
         /// Print one JSON object per readout instead of the report.
         #[arg(long)]
         json: bool,
+        /// Also write what the board's screen shows: screens.gif and PNG stills.
+        #[arg(long)]
+        screens: bool,
     },
     /// Write a scenario's synthetic multi-channel ADC stream as WAV.
     Synth {
@@ -159,10 +165,20 @@ fn io(e: std::io::Error) -> SimError {
 
 fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
     match cmd {
-        Command::Demo { output, seed, json } => undertone_sim::walk::walk(&Scenario::demo(), &output, json, seed, out).map(|_| ()),
-        Command::Walk { scenario, output, seed, json } => {
+        Command::Demo { output, seed, json, screens } => {
+            undertone_sim::walk::walk(&Scenario::demo(), &output, json, seed, out).map(|_| ())?;
+            if screens && !json {
+                undertone_sim::screens::walk(&Scenario::demo(), &output, seed, out)?;
+            }
+            Ok(())
+        }
+        Command::Walk { scenario, output, seed, json, screens } => {
             let sc = Scenario::load(&scenario)?;
-            undertone_sim::walk::walk(&sc, &output, json, seed, out).map(|_| ())
+            undertone_sim::walk::walk(&sc, &output, json, seed, out).map(|_| ())?;
+            if screens && !json {
+                undertone_sim::screens::walk(&sc, &output, seed, out)?;
+            }
+            Ok(())
         }
         Command::Synth { scenario, output, format, seed } => {
             let sc = Scenario::load(&scenario)?;

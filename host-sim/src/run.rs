@@ -258,13 +258,20 @@ pub struct SimRun {
     pub mains: undertone_dsp::detect::mains::MainsReport,
     /// Samples processed.
     pub samples: u64,
+    /// What the board's screen shows of each readout (same order as `rows`).
+    pub views: Vec<undertone_firmware::view::View>,
 }
 
 /// Run a scenario (optionally with another noise seed and bandwidth).
 pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> Result<SimRun> {
     let mut rows = Vec::new();
-    let mut run = simulate_each(sc, seed, bandwidth_hz, &mut |r| rows.push(r))?;
+    let mut views = Vec::new();
+    let mut run = match sc.coils() {
+        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, &mut |r| rows.push(r), Some(&mut views))?,
+        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, &mut |r| rows.push(r), Some(&mut views))?,
+    };
     run.rows = rows;
+    run.views = views;
     Ok(run)
 }
 
@@ -272,8 +279,8 @@ pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> 
 /// none (the returned run's `rows` is empty): memory stays flat however long the run.
 pub fn simulate_each(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>, on: &mut dyn FnMut(Row)) -> Result<SimRun> {
     match sc.coils() {
-        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, on),
-        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, on),
+        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, on, None),
+        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, on, None),
     }
 }
 
@@ -297,10 +304,18 @@ pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth
 /// the stream is cut, so a walk equals the replay of its recording.
 const CHUNK_FRAMES: usize = 1024;
 
-fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, bw: Option<f32>, on: &mut dyn FnMut(Row)) -> Result<SimRun> {
+fn simulate_n<const N: usize>(
+    sc: &Scenario,
+    head: Head<N>,
+    seed: Option<u64>,
+    bw: Option<f32>,
+    on: &mut dyn FnMut(Row),
+    mut views: Option<&mut Vec<undertone_firmware::view::View>>,
+) -> Result<SimRun> {
     let s = receiver_settings(sc, head, bw);
     let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let mut synth = Synth::new(sc, seed);
+    let ctx = crate::screens::context(sc, &s);
     let mut block = vec![[0i32; N]; CHUNK_FRAMES];
     loop {
         let got = synth.fill_codes(&mut block);
@@ -309,10 +324,13 @@ fn simulate_n<const N: usize>(sc: &Scenario, head: Head<N>, seed: Option<u64>, b
         }
         rx.push_codes_block(&block[..got], |r| {
             let shown = r.sample_index as f64 / synth.fs;
+            if let Some(v) = views.as_mut() {
+                v.push(undertone_firmware::view::View::from_readout(&r, &ctx));
+            }
             on(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown)))))
         });
     }
-    Ok(SimRun { rows: Vec::new(), info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position() })
+    Ok(SimRun { rows: Vec::new(), info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position(), views: Vec::new() })
 }
 
 /// Run the receiver on recorded frames (codes), no truth.

@@ -13,9 +13,52 @@ fn cargo() -> String {
     std::env::var("CARGO").unwrap_or_else(|_| "cargo".into())
 }
 
-/// Build the board image (profile `board`); its path.
+/// The board's target triple.
+pub const TARGET: &str = "thumbv7em-none-eabihf";
+
+/// True when the active toolchain (the one `rust-toolchain.toml` pins) has the board target's
+/// standard library installed.
+pub fn have_target() -> bool {
+    let rustc = std::env::var("RUSTC").unwrap_or_else(|_| "rustc".into());
+    Command::new(rustc)
+        .current_dir(workspace())
+        .args(["--print", "sysroot"])
+        .output()
+        .ok()
+        .filter(|o| o.status.success())
+        .map(|o| Path::new(String::from_utf8_lossy(&o.stdout).trim()).join("lib/rustlib").join(TARGET).join("lib").is_dir())
+        .unwrap_or(false)
+}
+
+/// Install the board target into the pinned toolchain with rustup when it is missing (a
+/// toolchain installed without it builds the host crates but not the board:
+/// "can't find crate for `core`").
+pub fn ensure_target() -> Result<(), String> {
+    if have_target() {
+        return Ok(());
+    }
+    eprintln!("the {TARGET} target is not installed for the pinned toolchain: installing it with rustup");
+    let ok =
+        Command::new("rustup").current_dir(workspace()).args(["target", "add", TARGET]).status().map(|s| s.success()).map_err(|e| {
+            format!("the {TARGET} target is missing and rustup cannot be run ({e}): install it with `rustup target add {TARGET}`")
+        })?;
+    if ok && have_target() {
+        Ok(())
+    } else {
+        Err(format!("the {TARGET} target is missing and `rustup target add {TARGET}` failed"))
+    }
+}
+
+/// Build the board image (profile `board`) into `target/` (or into `target_dir`); its path.
 pub fn build_board() -> Result<PathBuf, String> {
+    build_board_in(None)
+}
+
+/// Build the board image (profile `board`), into `target_dir` when given; its path.
+pub fn build_board_in(target_dir: Option<&Path>) -> Result<PathBuf, String> {
+    ensure_target()?;
     let ws = workspace();
+    let dir = target_dir.map(Path::to_path_buf).unwrap_or_else(|| ws.join("target"));
     let out = Command::new(cargo())
         .current_dir(&ws)
         .args([
@@ -30,29 +73,52 @@ pub fn build_board() -> Result<PathBuf, String> {
             "thumbv7em-none-eabihf",
             "--profile",
             "board",
+            "--target-dir",
         ])
+        .arg(&dir)
         .output()
         .map_err(|e| format!("cannot run cargo: {e}"))?;
     if !out.status.success() {
         return Err(format!("building the board image failed:\n{}", String::from_utf8_lossy(&out.stderr)));
     }
-    Ok(ws.join("target/thumbv7em-none-eabihf/board/undertone-board"))
+    Ok(dir.join("thumbv7em-none-eabihf/board/undertone-board"))
+}
+
+/// The board's flash and static RAM budget, bytes (an STM32G431-class part, 128 KiB of flash
+/// and 32 KiB of RAM, still takes the image).
+pub const FLASH_BUDGET: u64 = 128 * 1024;
+/// Static RAM budget, bytes.
+pub const RAM_BUDGET: u64 = 32 * 1024;
+
+/// How the emulator image is compiled.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum EmuProfile {
+    /// The board's profile (`board`: smallest code): what the board runs, for the whole
+    /// application's cost.
+    Board,
+    /// `release` (fastest code): the DSP kernels' cost table of `cargo target-bench`.
+    Release,
 }
 
 /// Build the emulator image in its own target folder (no lock shared with a running cargo).
-pub fn build_emu() -> Result<PathBuf, String> {
+pub fn build_emu(profile: EmuProfile) -> Result<PathBuf, String> {
+    ensure_target()?;
     let ws = workspace();
     let dir = ws.join("target").join("emu-image");
+    let name = match profile {
+        EmuProfile::Board => "board",
+        EmuProfile::Release => "release",
+    };
     let out = Command::new(cargo())
         .current_dir(&ws)
-        .args(["build", "-p", "undertone-emu", "--target", "thumbv7em-none-eabihf", "--release", "--target-dir"])
+        .args(["build", "-p", "undertone-emu", "--target", TARGET, "--profile", name, "--target-dir"])
         .arg(&dir)
         .output()
         .map_err(|e| format!("cannot run cargo: {e}"))?;
     if !out.status.success() {
         return Err(format!("building the emulator image failed:\n{}", String::from_utf8_lossy(&out.stderr)));
     }
-    Ok(dir.join("thumbv7em-none-eabihf/release/undertone-emu"))
+    Ok(dir.join(TARGET).join(name).join("undertone-emu"))
 }
 
 /// True when `qemu-system-arm` runs.

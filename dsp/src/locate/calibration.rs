@@ -19,6 +19,10 @@ use crate::field::FieldModel;
 pub const MIN_CAL_SNR: f32 = 31.6;
 /// Largest |Bz/Bh| accepted for calibration (directly below).
 pub const MAX_CAL_RATIO: f32 = 0.1;
+/// Known distances accepted for calibration and the pre-job check, m.
+pub const DISTANCE_RANGE_M: (f32, f32) = (0.2, 5.0);
+/// Upper-coil gain corrections accepted: beyond ±30 % means a wiring or geometry fault, not a gain spread.
+pub const UPPER_GAIN_RANGE: (f32, f32) = (0.7, 1.3);
 
 /// Stored calibration data.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -59,7 +63,7 @@ pub struct CalInput {
 
 /// Compute a calibration, or say why not (the error names the input at fault).
 pub fn calibrate(model: FieldModel, x: &CalInput) -> Result<Calibration, ConfigError> {
-    ConfigError::check(Param::Distance, x.distance_m, 0.2, 5.0)?;
+    ConfigError::check(Param::Distance, x.distance_m, DISTANCE_RANGE_M.0, DISTANCE_RANGE_M.1)?;
     ConfigError::check(Param::HeadGeometry, x.spacing_m, 0.05, 2.0)?;
     let snr = (x.a_low / x.sigma_low).min(x.a_up / x.sigma_up);
     if !(snr >= MIN_CAL_SNR) {
@@ -72,9 +76,8 @@ pub fn calibrate(model: FieldModel, x: &CalInput) -> Result<Calibration, ConfigE
     let r_true = libm::powf((x.distance_m + x.spacing_m) / x.distance_m, n);
     let r_m = x.a_low / x.a_up;
     let c = r_m / r_true;
-    // A correction beyond ±30 % means a wiring or geometry fault, not a gain spread.
-    if !(c > 0.7 && c < 1.3) {
-        return Err(ConfigError { param: Param::Calibration, value: c, min: 0.7, max: 1.3 });
+    if !(c > UPPER_GAIN_RANGE.0 && c < UPPER_GAIN_RANGE.1) {
+        return Err(ConfigError { param: Param::Calibration, value: c, min: UPPER_GAIN_RANGE.0, max: UPPER_GAIN_RANGE.1 });
     }
     let k = x.a_low * libm::powf(x.distance_m, n);
     Ok(Calibration { upper_gain: c, strength: k, strength_sigma: k * x.sigma_low / x.a_low })

@@ -1,12 +1,13 @@
-//! The emulator image: the application core (driver, queue, settings parser,
-//! storage on a RAM flash, receiver) fed by an emulated converter through the
-//! same driver path, readouts printed over semihosting, run under QEMU's
+//! The emulator image: the board's application (`App`: driver, queue,
+//! receiver, gain steps, supervisor, commands, buttons, battery, screen in a
+//! RAM frame buffer) fed by an emulated converter through the same driver and
+//! interrupt work, lines printed over semihosting, run under QEMU's
 //! `mps2-an386`. On the host the same run prints to stdout: its twin.
 //!
 //! Cost: SysTick counts the core clock (25 MHz on this machine); under
 //! `-icount shift=0` QEMU executes one instruction per nanosecond, so one tick
-//! is 40 instructions. The last line reports ticks spent in the receiver and in
-//! the driver.
+//! is 40 instructions. The last line reports ticks spent in the application's
+//! step (the whole main loop) and in the interrupt work.
 
 #![cfg_attr(target_os = "none", no_std)]
 #![cfg_attr(target_os = "none", no_main)]
@@ -19,6 +20,7 @@ mod target {
     use cortex_m::peripheral::SYST;
     use cortex_m_rt::entry;
     use cortex_m_semihosting::{debug, hprintln};
+    use undertone_firmware::bench;
 
     #[entry]
     fn main() -> ! {
@@ -40,27 +42,30 @@ mod target {
             total
         };
         let rep = undertone_firmware::emulated::run(super::FRAMES, &mut clock, &mut |l| hprintln!("{}", l));
-        // Cost table: the Goertzel floor, the detector, the whole receiver, the 6-coil fit.
+        // Cost table: the Goertzel floor, the detector, the whole receiver, the 6-coil fit, the screen.
         let n = 32_000usize;
-        let g = undertone_firmware::bench::goertzel_floor(n, &mut clock);
+        let g = bench::goertzel_floor(n, &mut clock);
         hprintln!("B goertzel-floor channel_samples={} ticks={}", n, g);
-        let (d, _) = undertone_firmware::bench::detector(n, &mut clock);
+        let (d, _) = bench::detector(n, &mut clock);
         hprintln!("B detector channel_samples={} ticks={}", n * 4, d);
-        let (r, outs) = undertone_firmware::bench::receiver(n, &mut clock);
+        let (r, outs) = bench::receiver(n, &mut clock);
         hprintln!("B receiver channel_samples={} ticks={} readouts={}", n * 4, r, outs);
-        let (mix, ends) = undertone_firmware::bench::lockin_parts(n, &mut clock);
+        let (mix, ends) = bench::lockin_parts(n, &mut clock);
         hprintln!("B lockin-mix channel_samples={} ticks={}", n * 4, mix);
         hprintln!("B lockin-boxcar-ends channel_samples={} ticks={}", n * 4, ends);
-        let f = undertone_firmware::bench::six_coil_fit(4, &mut clock);
+        let f = bench::six_coil_fit(4, &mut clock);
         hprintln!("B six-coil-fit fits=4 ticks={}", f);
-        let w = undertone_firmware::bench::six_coil_fit_warm(8, &mut clock);
+        let w = bench::six_coil_fit_warm(8, &mut clock);
         hprintln!("B six-coil-fit-warm fits=8 ticks={}", w);
+        let s = bench::screen(20, &mut clock);
+        hprintln!("B screen-draw draws=20 ticks={}", s);
         hprintln!(
-            "E frames={} readouts={} receiver_ticks={} driver_ticks={} gain_steps={} rejected={}",
+            "E frames={} readouts={} screens={} app_ticks={} isr_ticks={} gain_steps={} rejected={}",
             rep.frames,
             rep.readouts,
-            rep.receiver_clock,
-            rep.driver_clock,
+            rep.screens,
+            rep.app_clock,
+            rep.isr_clock,
             rep.gain_steps,
             rep.rejected
         );
@@ -80,7 +85,7 @@ mod target {
 fn main() {
     let rep = undertone_firmware::emulated::run(FRAMES, &mut || 0, &mut |l| println!("{l}"));
     println!(
-        "E frames={} readouts={} receiver_ticks=0 driver_ticks=0 gain_steps={} rejected={}",
-        rep.frames, rep.readouts, rep.gain_steps, rep.rejected
+        "E frames={} readouts={} screens={} app_ticks=0 isr_ticks=0 gain_steps={} rejected={}",
+        rep.frames, rep.readouts, rep.screens, rep.gain_steps, rep.rejected
     );
 }

@@ -1,14 +1,16 @@
 //! The board program for the reference receiver: an STM32F411 (100 MHz
-//! Cortex-M4F) with a 4-channel ADS131M04-class converter on SPI1.
+//! Cortex-M4F) with a 4-channel ADS131M04-class converter on SPI1, a 128×64
+//! SSD1306-class OLED on I2C1, three buttons and a battery divider.
 //!
 //! Wiring (see `firmware/README.md`): SPI1 SCK PA5, MISO PA6, MOSI PA7, chip
-//! select PA4, data-ready PB0 (EXTI0, falling edge), converter clock from an
-//! 8.192 MHz oscillator; speaker driver on PB5 (TIM3 channel 2 PWM); status
-//! LED PC13. Readouts and replies are logged with defmt over RTT; commands
-//! arrive on RTT down channel 0.
+//! select PA4, data-ready PB0 (EXTI0, falling edge); OLED SCL PB6, SDA PB7;
+//! buttons − PB12, OK PB13, + PB14 (to ground, internal pull-ups); battery
+//! divider PA1 (ADC1 channel 1); speaker PB5 (TIM3 channel 2 PWM); status LED
+//! PC13. The log goes out with defmt over RTT; commands arrive on RTT down
+//! channel 0.
 //!
-//! Everything decided here is decided by the library (`App`, `Supervisor`,
-//! `tone_for`): this file only wires the hardware to it.
+//! This file only wires the hardware to the library's `App`, whose `step` is the
+//! whole main loop; the data-ready interrupt reads frames into the queue.
 
 #![no_std]
 #![no_main]
@@ -17,9 +19,16 @@ use core::cell::RefCell;
 use cortex_m_rt::entry;
 use critical_section::Mutex;
 use embedded_hal_bus::spi::{ExclusiveDevice, NoDelay};
-use heapless::String;
+use ssd1306::command::AddrMode;
+use ssd1306::mode::BasicMode;
+use ssd1306::prelude::*;
+use ssd1306::{I2CDisplayInterface, Ssd1306};
 use stm32f4xx_hal::{
+    adc::config::{AdcConfig, SampleTime},
+    adc::Adc,
+    flash::{FlashExt, LockedFlash},
     gpio::{Edge, ExtiPin, Input, Output, Pin},
+    i2c::I2c,
     interrupt, pac,
     prelude::*,
     rcc::Config,
@@ -27,49 +36,68 @@ use stm32f4xx_hal::{
     timer::Delay,
     watchdog::IndependentWatchdog,
 };
-use undertone_firmware::ads131::{Ads131, Osr};
-use undertone_firmware::app::{App, Effect, REPLY};
-use undertone_firmware::protocol::{LineBuffer, LineEvent};
-use undertone_firmware::queue::FrameQueue;
+use undertone_dsp::format::length;
+use undertone_firmware::ads131::{read_into, Ads131, Osr};
+use undertone_firmware::app::{App, Event, Hardware, Inputs, Panel, PanelError, SettingsStore, Shared};
+use undertone_firmware::battery::BOARD_DIVIDER;
+use undertone_firmware::queue::{split, FrameProducer, FrameQueue, PathCounts};
 use undertone_firmware::settings::Settings;
-use undertone_firmware::storage::{LoadOutcome, Store};
-use undertone_firmware::supervisor::{Action, Supervisor};
-use undertone_firmware::tone::tone_for;
+use undertone_firmware::storage::{LoadOutcome, Store, StoreError};
 
 /// Converter output rate.
 const OSR: Osr = Osr::R128;
 /// Flash offset and size of the settings sector (sector 7 of the STM32F411CE).
 const STORE_BASE: u32 = 0x6_0000;
 const STORE_SIZE: u32 = 0x2_0000;
+/// Core clock, Hz (the DWT cycle counter's rate).
+const CORE_HZ: u32 = 100_000_000;
+/// Frames the queue holds: 255 at 32 kSPS is 8 ms, more than a screen page transfer takes.
+const QUEUE_CAP: usize = 256;
+/// Battery readings per second.
+const BATTERY_EVERY_MS: u64 = 100;
 
 type Bus = ExclusiveDevice<Spi<pac::SPI1>, Pin<'A', 4, Output>, NoDelay>;
-type Adc = Ads131<Bus, Pin<'B', 0, Input>, Delay<pac::TIM5, 1_000_000>, 4>;
+type Adc131 = Ads131<Bus, Pin<'B', 0, Input>, Delay<pac::TIM5, 1_000_000>, 4>;
+type BoardApp = App<Shared<'static, Adc131>, Oled, FlashStore, 4>;
 
-static ADC: Mutex<RefCell<Option<Adc>>> = Mutex::new(RefCell::new(None));
-static QUEUE: FrameQueue<4, 64> = FrameQueue::new();
-static BAD_FRAMES: Mutex<core::cell::Cell<u32>> = Mutex::new(core::cell::Cell::new(0));
+static ADC: Mutex<RefCell<Option<Adc131>>> = Mutex::new(RefCell::new(None));
+static PRODUCER: Mutex<RefCell<Option<FrameProducer<'static, 4>>>> = Mutex::new(RefCell::new(None));
+static COUNTS: PathCounts = PathCounts::new();
 
 #[interrupt]
 fn EXTI0() {
     critical_section::with(|cs| {
-        if let Some(adc) = ADC.borrow_ref_mut(cs).as_mut() {
+        if let (Some(adc), Some(tx)) = (ADC.borrow_ref_mut(cs).as_mut(), PRODUCER.borrow_ref_mut(cs).as_mut()) {
             adc.drdy_mut().clear_interrupt_pending_bit();
-            match adc.read() {
-                Ok(f) => {
-                    QUEUE.push(f);
-                }
-                Err(_) => {
-                    let c = BAD_FRAMES.borrow(cs);
-                    c.set(c.get().saturating_add(1));
-                }
-            }
+            read_into(adc, tx);
         }
     });
 }
 
-fn now_ms() -> u32 {
-    // DWT cycle counter at 100 MHz.
-    cortex_m::peripheral::DWT::cycle_count() / 100_000
+/// The OLED, taking one page at a time.
+struct Oled(Ssd1306<I2CInterface<I2c<pac::I2C1>>, DisplaySize128x64, BasicMode>);
+
+impl Panel for Oled {
+    fn send_page(&mut self, page: usize, bytes: &[u8]) -> Result<(), PanelError> {
+        let y = (page * 8) as u8;
+        self.0.set_draw_area((0, y), (128, y + 8)).map_err(|_| PanelError)?;
+        self.0.draw(bytes).map_err(|_| PanelError)
+    }
+}
+
+/// The settings sector, unlocked only while it is written.
+struct FlashStore(LockedFlash);
+
+impl SettingsStore<4> for FlashStore {
+    fn load(&mut self, defaults: Settings<4>) -> (Settings<4>, LoadOutcome) {
+        match Store::new(self.0.unlocked(), STORE_BASE, STORE_SIZE) {
+            Ok(mut st) => st.load(defaults),
+            Err(_) => (defaults, LoadOutcome::Corrupt),
+        }
+    }
+    fn save(&mut self, s: &Settings<4>) -> Result<u32, StoreError> {
+        Store::new(self.0.unlocked(), STORE_BASE, STORE_SIZE)?.save(s)
+    }
 }
 
 #[entry]
@@ -93,8 +121,9 @@ fn main() -> ! {
     let gpioc = dp.GPIOC.split(&mut rcc);
     let mut led = gpioc.pc13.into_push_pull_output();
 
-    // Converter on SPI1, mode 1, 4 MHz.
-    let spi = Spi::new(dp.SPI1, (Some(gpioa.pa5), Some(gpioa.pa6), Some(gpioa.pa7)), embedded_hal::spi::MODE_1, 4.MHz(), &mut rcc);
+    // Converter on SPI1, mode 1, 12.5 MHz (APB2/8; the converter takes up to 25 MHz): a frame of
+    // 18 bytes takes 11.5 µs of the 31.25 µs between conversions at 32 kSPS.
+    let spi = Spi::new(dp.SPI1, (Some(gpioa.pa5), Some(gpioa.pa6), Some(gpioa.pa7)), embedded_hal::spi::MODE_1, 12_500.kHz(), &mut rcc);
     let cs = gpioa.pa4.into_push_pull_output();
     let Ok(bus) = ExclusiveDevice::new(spi, cs, NoDelay);
     let mut drdy = gpiob.pb0.into_pull_up_input();
@@ -103,38 +132,87 @@ fn main() -> ! {
     drdy.trigger_on_edge(&mut dp.EXTI, Edge::Falling);
     drdy.enable_interrupt(&mut dp.EXTI);
     let delay = dp.TIM5.delay_us(&mut rcc);
-    let mut adc: Adc = Ads131::new(bus, drdy, delay);
-
-    // Settings from the last flash sector.
-    let mut flash = stm32f4xx_hal::flash::LockedFlash::new(dp.FLASH);
-    let (settings, outcome) = {
-        let unlocked = stm32f4xx_hal::flash::FlashExt::unlocked(&mut flash);
-        match Store::new(unlocked, STORE_BASE, STORE_SIZE) {
-            Ok(mut st) => st.load(Settings::defaults()),
-            Err(_) => (Settings::defaults(), LoadOutcome::Corrupt),
-        }
-    };
-    match outcome {
-        LoadOutcome::Loaded { slot } => defmt::info!("settings loaded from slot {=u32}", slot),
-        LoadOutcome::Empty => defmt::warn!("no stored settings: defaults"),
-        LoadOutcome::Corrupt => defmt::warn!("stored settings corrupt: defaults"),
-        LoadOutcome::OtherVersion { found } => defmt::warn!("stored settings are version {=u16}: defaults", found),
-        LoadOutcome::Invalid => defmt::warn!("stored settings invalid: defaults"),
-    }
-    let fsc = 8_388_607;
-    let (mut app, refused) = match App::new(settings, Settings::defaults(), OSR.rate_hz(), fsc, [1.0 / fsc as f32; 4]) {
-        Ok(a) => a,
-        Err(_) => defmt::panic!("factory settings do not build"),
-    };
-    if refused.is_some() {
-        defmt::warn!("stored settings refused by the receiver: defaults");
-    }
-
+    let mut adc: Adc131 = Ads131::new(bus, drdy, delay);
     match adc.init(OSR, [0; 4]) {
         Ok(()) => defmt::info!("converter ready"),
         Err(_) => defmt::error!("converter did not initialise; will retry"),
     }
-    critical_section::with(|cs| ADC.borrow_ref_mut(cs).replace(adc));
+
+    // OLED on I2C1 at 400 kHz: a page of 128 bytes takes about 3 ms.
+    let i2c = I2c::new(dp.I2C1, (gpiob.pb6, gpiob.pb7), 400.kHz(), &mut rcc);
+    let mut oled = Ssd1306::new(I2CDisplayInterface::new(i2c), DisplaySize128x64, DisplayRotation::Rotate0);
+    if oled.init_with_addr_mode(AddrMode::Horizontal).is_err() {
+        defmt::warn!("screen did not answer; carrying on without it");
+    }
+
+    // Buttons to ground with pull-ups; battery divider on PA1.
+    let minus = gpiob.pb12.into_pull_up_input();
+    let ok = gpiob.pb13.into_pull_up_input();
+    let plus = gpiob.pb14.into_pull_up_input();
+    let battery_pin = gpioa.pa1.into_analog();
+    let mut battery_adc = Adc::new(dp.ADC1, true, AdcConfig::default(), &mut rcc);
+
+    // The frame queue, split between the interrupt and the main loop.
+    let Some(queue) = cortex_m::singleton!(: FrameQueue<4, QUEUE_CAP> = FrameQueue::new()) else {
+        defmt::panic!("queue already taken");
+    };
+    let (tx, mut rx) = split(queue, &COUNTS);
+
+    let fsc = 8_388_607;
+    let hw = Hardware {
+        fs: OSR.rate_hz(),
+        full_scale_code: fsc,
+        unity_scale: [1.0 / fsc as f32; 4],
+        ticks_per_ms: CORE_HZ / 1000,
+        divider: BOARD_DIVIDER,
+    };
+    // Readouts are logged with defmt's deferred formatting (numbers are formatted on the
+    // host); lengths in the units chosen.
+    let log = |e: Event<'_, 4>, units| match e {
+        Event::Readout(r) => {
+            let (d, s) = match r.depth {
+                Some(d) => (length(d.below_ground_m, units), length(d.depth.sigma_m, units)),
+                None => (length(f32::NAN, units), length(f32::NAN, units)),
+            };
+            defmt::info!(
+                "t={=f32} s {=f32} dBFS SNR {=f32} dB bearing {=f32} deg {=str} {=str}/{=str} depth {=str} +-{=str} flags {=u32:x}",
+                r.t_s as f32,
+                r.strength_db,
+                r.snr_db,
+                r.bearing_deg,
+                r.state.name(),
+                r.guidance.along.name(),
+                r.guidance.across.name(),
+                d.as_str(),
+                s.as_str(),
+                r.flags.0
+            );
+        }
+        Event::Reply(t) => defmt::info!("{=str}", t),
+        Event::Note(t) => defmt::warn!("{=str}", t),
+        Event::Screen { .. } => {}
+    };
+    let app = match App::new(
+        hw,
+        Settings::defaults(),
+        Shared(&ADC),
+        Oled(oled),
+        FlashStore(LockedFlash::new(dp.FLASH)),
+        cortex_m::peripheral::DWT::cycle_count(),
+        &mut |e| log(e, undertone_dsp::format::LengthUnit::Metres),
+    ) {
+        Ok(a) => a,
+        Err(_) => defmt::panic!("factory settings do not build"),
+    };
+    // In static memory, so `cargo board` counts it.
+    let Some(app) = cortex_m::singleton!(: BoardApp = app) else {
+        defmt::panic!("application already taken");
+    };
+
+    critical_section::with(|cs| {
+        ADC.borrow_ref_mut(cs).replace(adc);
+        PRODUCER.borrow_ref_mut(cs).replace(tx);
+    });
     // SAFETY: the handler only touches state behind critical sections.
     #[allow(unsafe_code)] // unmasking an interrupt is `unsafe` in cortex-m; the one place this crate needs it
     unsafe {
@@ -150,112 +228,36 @@ fn main() -> ! {
     let mut wdg = IndependentWatchdog::new(dp.IWDG);
     wdg.start(500.millis());
 
-    let mut sup = Supervisor::new(now_ms());
-    let mut lines = LineBuffer::new();
-    let mut reply: String<REPLY> = String::new();
-    let mut tone = undertone_firmware::tone::Tone::Off;
     let mut last_pitch = 0.0f32;
+    let mut next_battery_ms = 0u64;
     loop {
-        let t = now_ms();
-        // Drain the queue a burst at a time into the receiver's fast path.
-        let mut burst = [[0i32; 4]; 16];
-        let mut k = 0;
-        while k < burst.len() {
-            match QUEUE.pop() {
-                Some(f) => {
-                    burst[k] = f;
-                    k += 1;
-                }
-                None => break,
-            }
-        }
-        if k > 0 {
-            sup.good_frame(t);
-        }
-        let mut readouts: heapless::Vec<undertone_dsp::Readout<4>, 2> = heapless::Vec::new();
-        app.process_block(&burst[..k], |r| {
-            let _ = readouts.push(r);
-        });
-        for r in readouts.iter() {
-            let (d, sd) = r.depth().map(|e| (e.depth_m, e.sigma_m)).unwrap_or((f32::NAN, f32::NAN));
-            defmt::info!(
-                "t={=f64} str={=f32} dB={=f32} snr={=f32} bear={=f32} {=str} depth={=f32}±{=f32} flags={=u32:x}",
-                r.t_s,
-                r.strength,
-                r.strength_db,
-                r.snr_db,
-                r.bearing_deg,
-                r.state.name(),
-                d,
-                sd,
-                r.flags.0
-            );
-            tone = tone_for(r);
-            if let Some(g) = r.gain_request {
-                let ch = g.channel as usize;
-                let stepped = critical_section::with(|cs| {
-                    ADC.borrow_ref_mut(cs).as_mut().and_then(|a| {
-                        let old = a.gains()[ch];
-                        let new = if g.up { old.saturating_add(1).min(7) } else { old.saturating_sub(1) };
-                        (new != old && a.set_gain(ch, new).is_ok()).then_some(new > old)
-                    })
-                });
-                if let Some(up) = stepped {
-                    app.gain_changed(ch, if up { 2.0 } else { 0.5 });
-                }
-            }
-        }
-        app.note_overruns(QUEUE.take_overruns());
-        let bad = critical_section::with(|cs| BAD_FRAMES.borrow(cs).replace(0));
-        for _ in 0..bad {
-            sup.bad_frame();
-        }
-        if sup.poll(t) == Action::Reinit {
-            defmt::warn!("converter fault: re-initialising");
-            let ok = critical_section::with(|cs| ADC.borrow_ref_mut(cs).as_mut().map(|a| a.init(OSR, [0; 4]).is_ok()).unwrap_or(false));
-            if ok {
-                defmt::info!("converter back");
-            }
-        }
-        // Commands.
         let mut buf = [0u8; 32];
         let n = commands.read(&mut buf);
-        for &b in &buf[..n] {
-            match lines.push(b) {
-                LineEvent::Line(l) => {
-                    if app.command(&l, &mut reply) == Effect::Save {
-                        let unlocked = stm32f4xx_hal::flash::FlashExt::unlocked(&mut flash);
-                        let saved = Store::new(unlocked, STORE_BASE, STORE_SIZE)
-                            .ok()
-                            .map(|mut st| st.save(app.settings()).is_ok())
-                            .unwrap_or(false);
-                        if !saved {
-                            reply.clear();
-                            let _ = reply.push_str("err save failed: flash error");
-                        }
-                    }
-                    defmt::info!("{=str}", reply.as_str());
-                }
-                LineEvent::TooLong => defmt::info!("err line too long (at most 96 characters)"),
-                LineEvent::NotText => defmt::info!("err line is not text"),
-                LineEvent::None => {}
-            }
-        }
-        // Tone.
-        let pitch = tone.pitch_at(t);
-        if pitch != last_pitch {
-            if pitch > 0.0 {
-                pwm_mgr.set_period((pitch as u32).Hz());
+        let battery_code = (app.now_ms() >= next_battery_ms).then(|| {
+            next_battery_ms = app.now_ms() + BATTERY_EVERY_MS;
+            battery_adc.convert(&battery_pin, SampleTime::Cycles_480)
+        });
+        let inputs = Inputs {
+            ticks: cortex_m::peripheral::DWT::cycle_count(),
+            buttons: [minus.is_low(), ok.is_low(), plus.is_low()],
+            battery_code,
+            command: &buf[..n],
+        };
+        let units = app.settings().units;
+        let o = app.step(&mut rx, &inputs, &mut |e| log(e, units));
+        if o.pitch_hz != last_pitch {
+            if o.pitch_hz > 0.0 {
+                pwm_mgr.set_period((o.pitch_hz as u32).Hz());
                 speaker.set_duty(speaker.get_max_duty() / 2);
             } else {
                 speaker.set_duty(0);
             }
-            last_pitch = pitch;
+            last_pitch = o.pitch_hz;
         }
-        if sup.state == undertone_firmware::supervisor::PathState::Running {
-            led.set_low();
-        } else {
+        if o.fault {
             led.toggle();
+        } else {
+            led.set_low();
         }
         wdg.feed();
     }
@@ -263,6 +265,11 @@ fn main() -> ! {
 
 #[panic_handler]
 fn panic(info: &core::panic::PanicInfo) -> ! {
-    defmt::error!("panic: {}", defmt::Display2Format(info));
+    // The place, not the formatted message: formatting every panic message's arguments would
+    // keep core's whole float printer in flash for a path that should never run.
+    match info.location() {
+        Some(l) => defmt::error!("panic at {=str}:{=u32}", l.file(), l.line()),
+        None => defmt::error!("panic"),
+    }
     cortex_m::peripheral::SCB::sys_reset()
 }
