@@ -36,7 +36,7 @@ use crate::locate::fit::Fix;
 use crate::locate::guidance::Guidance;
 use crate::locate::locator::{Located, Locator, LocatorSettings, ShownDepth, Signal, Timing};
 use crate::locate::orientation::Orientation;
-use crate::locate::track::TrackState;
+use crate::locate::trail::Place;
 use crate::phasor::C32;
 
 /// Everything the receiver is configured with.
@@ -108,8 +108,8 @@ pub struct Readout<const N: usize> {
     pub depth: Option<ShownDepth>,
     /// The one-station fix, when the head has two full triads and the fit ran.
     pub fix: Option<Fix>,
-    /// The along/across track.
-    pub track: TrackState,
+    /// Where the trail of stations puts the sonde (None until a fit exists).
+    pub place: Option<Place>,
     /// Tone offset from the set frequency, Hz.
     pub freq_offset_hz: f32,
     /// One-sigma of that offset, Hz.
@@ -265,7 +265,7 @@ impl<const N: usize> Receiver<N> {
             fit_depth: l.fit_depth,
             depth: l.depth,
             fix: l.fix,
-            track: l.track,
+            place: l.place,
             freq_offset_hz: d.freq_offset_hz,
             freq_offset_sigma_hz: d.freq_offset_sigma_hz,
             flags,

@@ -194,6 +194,8 @@ pub fn withheld_text(w: Withheld) -> &'static str {
         Withheld::Distorted => "distorted",
         Withheld::Uncertain => "too unsure",
         Withheld::NeedsMotion => "walk along",
+        Withheld::Ambiguous => "two answers",
+        Withheld::Moving => "stand still",
     }
 }
 
@@ -209,6 +211,7 @@ pub fn hint_text(h: Hint) -> &'static str {
         Hint::StepLeft => "step left",
         Hint::StepRight => "step right",
         Hint::SweepAlong => "sweep a little along",
+        Hint::SweepAcross => "sweep side to side",
         Hint::HoldStill => "over it: hold still",
     }
 }

@@ -3,6 +3,7 @@
 //!
 //! # The operator's procedure (what the receiver asks of its user)
 //! Each readout (20 per second) the operator reads the receiver's hint and:
+//! * after every move of a set distance, stands still 0.8 s and reads the screen again;
 //! * **wait**: stands still (the detector is settling, or there is no tone);
 //! * **turn in line**: turns on the spot toward the field (the way the bearing
 //!   points, 30°/s) until the bearing reads within 5° of the handle;
@@ -12,11 +13,15 @@
 //! * **walk the other way** (the field is getting weaker): reverses the way
 //!   it walks (once it has gone 0.5 m since the last reversal);
 //! * **walk ahead / walk back**: walks that way along the handle at 0.3 m/s,
-//!   slowing to 0.1 m/s within 0.3 m of the point shown, keeping the heading;
-//! * **sweep along** (over along the axis, the side unknown): walks 0.3 m
-//!   forward and back along the handle at 0.2 m/s;
+//!   keeping the heading; when the distance shown is under 0.6 m, walks just
+//!   that distance (at 0.2 m/s) and stops;
+//! * **sweep along** (the receiver needs to see the field change along):
+//!   walks the distance shown (0.3 m if none) forward, twice that back and
+//!   forward again to the start along the handle at 0.2 m/s, keeping the heading;
+//! * **sweep across** (over along the axis, the side unknown): the same
+//!   sideways (left first), keeping the heading;
 //! * **step left / step right**: steps sideways the distance shown (0.2 m if
-//!   none) at 0.2 m/s, then sweeps along;
+//!   none) at 0.2 m/s, keeping the heading;
 //! * **hold still**: stands still and, once a depth has been shown for a second,
 //!   marks the spot and reads the depth. That ends the start.
 //!
@@ -48,10 +53,14 @@ use undertone_dsp::{Head, Readout, Receiver};
 pub const MAX_TIME_S: f64 = 120.0;
 /// Walking speed, m/s.
 pub const WALK_M_S: f64 = 0.3;
-/// Slow walking speed near the point shown, m/s.
-pub const SLOW_M_S: f64 = 0.1;
-/// Sideways and sweeping speed, m/s.
+/// Speed of a move of a set distance (a step, a sweep), m/s.
 pub const STEP_M_S: f64 = 0.2;
+/// A distance shown shorter than this is walked as one move, then the operator stops, m.
+pub const NEAR_M: f64 = 0.6;
+/// The operator stands this long after each move before acting on the screen again, s.
+pub const PAUSE_S: f64 = 0.8;
+/// The operator counts the receiver as in line within this bearing, degrees.
+pub const ALIGNED_DEG: f64 = 5.0;
 /// Turning rate, rad/s (30°/s).
 pub const TURN_RAD_S: f64 = 0.5236;
 /// Half-length of a sweep along the handle, m.
@@ -151,23 +160,99 @@ fn start_pose(sc: &Scenario, rng: &mut ChaCha8Rng, range: f64) -> Result<Pose> {
             return Ok(pose);
         }
     }
-    Err(SimError::Arg { name: "locate".into(), msg: format!("scenario '{}': no start within the detection range reaches {START_SNR_DB} dB", sc.name) })
+    Err(SimError::Arg {
+        name: "locate".into(),
+        msg: format!("scenario '{}': no start within the detection range reaches {START_SNR_DB} dB", sc.name),
+    })
+}
+
+/// Development statistics (UNDERTONE_DIAG set).
+#[derive(Default)]
+pub struct Diag {
+    /// Readouts seen.
+    pub readouts: usize,
+    /// Without a trail fit.
+    pub no_fit: usize,
+    /// With an inconsistent one.
+    pub inconsistent: usize,
+    /// χ²/dof of consistent fits.
+    pub chi2_ok: Vec<f64>,
+    /// χ²/dof of inconsistent fits.
+    pub chi2_bad: Vec<f64>,
+    /// Normalised errors of ahead.
+    pub ahead: Vec<f64>,
+    /// … of left.
+    pub left: Vec<f64>,
+    /// Along direction wrong.
+    pub wrong_along: usize,
+    /// Across direction wrong.
+    pub wrong_across: usize,
+    /// Hints shown.
+    pub hints: std::collections::BTreeMap<&'static str, usize>,
+}
+
+/// Development statistics.
+pub static DIAG: std::sync::LazyLock<std::sync::Mutex<Diag>> = std::sync::LazyLock::new(|| std::sync::Mutex::new(Diag::default()));
+
+/// Print the development statistics.
+pub fn print_diag() {
+    let d = DIAG.lock().unwrap();
+    let frac = |v: &[f64], k: f64| v.iter().filter(|z| z.abs() <= k).count() as f64 / v.len().max(1) as f64;
+    eprintln!(
+        "diag: readouts {} no-fit {:.1}% | ahead n {} within 1σ {:.2} 2σ {:.2} 3σ {:.3} | left n {} within 1σ {:.2} 2σ {:.2} 3σ {:.3} | wrong along {} across {}",
+        d.readouts,
+        100.0 * d.no_fit as f64 / d.readouts.max(1) as f64,
+        d.ahead.len(),
+        frac(&d.ahead, 1.0),
+        frac(&d.ahead, 2.0),
+        frac(&d.ahead, 3.0),
+        d.left.len(),
+        frac(&d.left, 1.0),
+        frac(&d.left, 2.0),
+        frac(&d.left, 3.0),
+        d.wrong_along,
+        d.wrong_across
+    );
+    eprintln!("diag hints: {:?}", d.hints);
+    let mut a = d.chi2_ok.clone();
+    let mut b = d.chi2_bad.clone();
+    eprintln!(
+        "diag inconsistent {:.1}% chi2/dof ok median {:?} bad median {:?}",
+        100.0 * d.inconsistent as f64 / d.readouts.max(1) as f64,
+        crate::stats::median(&mut a),
+        crate::stats::median(&mut b)
+    );
 }
 
 /// What the operator is doing.
 #[derive(Clone, Copy, Debug, PartialEq)]
 enum Act {
-    Still,
+    /// Standing; seconds stood.
+    Still { stood: f64 },
+    /// Turning on the spot toward the field.
     Turn,
-    /// Walking along the handle: +1 forward, −1 back; distance walked this way.
-    Walk { dir: f64, walked: f64 },
-    /// A sweep along: distance still to go this leg, leg direction, legs left.
-    Sweep { left: f64, dir: f64, legs: u8 },
-    /// A sideways step: +1 left; distance still to go.
-    Side { dir: f64, left: f64 },
+    /// Walking along the handle: +1 forward, −1 back; distance walked this way;
+    /// distance still to go when walking a distance shown (then stopping).
+    Walk { dir: f64, walked: f64, to_go: Option<f64> },
+    /// A sweep along: distance still to go this leg, leg direction, legs left
+    /// (three legs: one way, twice as far back, and back to the start), half-length.
+    Sweep { left: f64, dir: f64, legs: u8, half: f64 },
+    /// Sideways steps: +1 left; distance still to go this leg, legs left, half-length.
+    Side { dir: f64, left: f64, legs: u8, half: f64 },
 }
 
-fn one<const N: usize>(sc: &Scenario, head: Head<N>, index: usize, seed: u64, range: f64, trace: Option<&mut dyn std::io::Write>) -> Result<StartResult> {
+impl Act {
+    const STILL: Act = Act::Still { stood: 0.0 };
+}
+
+fn one<const N: usize>(
+    sc: &Scenario,
+    head: Head<N>,
+    index: usize,
+    seed: u64,
+    range: f64,
+    trace: Option<&mut dyn std::io::Write>,
+) -> Result<StartResult> {
     let mut trace = trace;
     let mut rng = ChaCha8Rng::seed_from_u64(seed.wrapping_mul(0x9E37_79B9_7F4A_7C15).wrapping_add(index as u64));
     let start = start_pose(sc, &mut rng, range)?;
@@ -183,7 +268,7 @@ fn one<const N: usize>(sc: &Scenario, head: Head<N>, index: usize, seed: u64, ra
     let mut block = vec![[0i32; N]; frames];
     let mut pose = start;
     let mut t = 0.0f64;
-    let mut act = Act::Still;
+    let mut act = Act::STILL;
     let mut last: Option<Readout<N>> = None;
     let mut depth_since: Option<f64> = None;
     let mut path = vec![(pose.x_m, pose.y_m)];
@@ -193,10 +278,17 @@ fn one<const N: usize>(sc: &Scenario, head: Head<N>, index: usize, seed: u64, ra
         let miss = truth.range_m;
         let tol = over_tolerance_m(truth.depth_m as f32) as f64;
         let err = depth.map(|(d, _)| 100.0 * (d - truth.depth_m) / truth.depth_m);
-        let depth_ok = depth.map(|(d, s)| (d - truth.depth_m).abs() <= 2.0 * s && (d - truth.depth_m).abs() <= 0.05 * truth.depth_m).unwrap_or(false);
+        let depth_ok =
+            depth.map(|(d, s)| (d - truth.depth_m).abs() <= 2.0 * s && (d - truth.depth_m).abs() <= 0.05 * truth.depth_m).unwrap_or(false);
         let located = failure.is_none() && miss <= tol && depth_ok;
         let failure = failure.or_else(|| {
-            (!located).then(|| if miss > tol { format!("stopped {miss:.2} m from the point over the sonde") } else { format!("depth off by {:.1} %", err.unwrap_or(f64::NAN)) })
+            (!located).then(|| {
+                if miss > tol {
+                    format!("stopped {miss:.2} m from the point over the sonde")
+                } else {
+                    format!("depth off by {:.1} %", err.unwrap_or(f64::NAN))
+                }
+            })
         });
         StartResult {
             start: index,
@@ -226,13 +318,64 @@ fn one<const N: usize>(sc: &Scenario, head: Head<N>, index: usize, seed: u64, ra
                 depth_since = None;
             }
             act = decide(act, &r);
+            if let (Some(w), Some(p)) = (trace.as_mut(), r.place) {
+                if !p.consistent && std::env::var_os("UNDERTONE_STATIONS").is_some() {
+                    let tr = rx.locator().trail();
+                    for i in 0..tr.stations() {
+                        if let Some(st) = tr.station(i) {
+                            let _ = writeln!(
+                                w,
+                                "    st {i:2} t {:6.2}-{:6.2} n {:3} {:?} res {:?} prior {:?} place {:?}",
+                                st.t0_s,
+                                st.t1_s,
+                                st.readouts,
+                                st.motion,
+                                st.residual.map(|v| (v * 10.0).round() / 10.0),
+                                st.prior.map(|v| (v * 10.0).round() / 10.0),
+                                st.place.map(|v| (v * 100.0).round() / 100.0)
+                            );
+                        }
+                    }
+                }
+            }
+            if std::env::var_os("UNDERTONE_DIAG").is_some() {
+                let tr = synth.truth_at(pose, t);
+                let g = &r.guidance;
+                let mut d = DIAG.lock().unwrap();
+                d.readouts += 1;
+                match r.place {
+                    None => d.no_fit += 1,
+                    Some(p) if !p.consistent => {
+                        d.inconsistent += 1;
+                        d.chi2_bad.push(p.chi2 as f64 / p.dof.max(1) as f64);
+                    }
+                    Some(p) => d.chi2_ok.push(p.chi2 as f64 / p.dof.max(1) as f64),
+                }
+                if let Some(a) = g.ahead {
+                    let z = (a.value_m as f64 - tr.ahead_m) / a.sigma_m.max(1e-6) as f64;
+                    d.ahead.push(z);
+                }
+                if let Some(l) = g.left {
+                    let z = (l.value_m as f64 - tr.left_m) / l.sigma_m.max(1e-6) as f64;
+                    d.left.push(z);
+                }
+                let wrong_a = (g.along == undertone_dsp::locate::guidance::Along::Ahead && tr.ahead_m < 0.0)
+                    || (g.along == undertone_dsp::locate::guidance::Along::Behind && tr.ahead_m > 0.0);
+                let wrong_l = (g.across == undertone_dsp::locate::guidance::Across::Left && tr.left_m < 0.0)
+                    || (g.across == undertone_dsp::locate::guidance::Across::Right && tr.left_m > 0.0);
+                d.wrong_along += wrong_a as usize;
+                d.wrong_across += wrong_l as usize;
+                *d.hints.entry(g.hint.name()).or_insert(0) += 1;
+            }
             if let Some(w) = trace.as_mut() {
                 let tr = synth.truth_at(pose, t);
                 let g = &r.guidance;
-                let f = |d: Option<undertone_dsp::locate::guidance::Distance>| d.map(|d| format!("{:+.2}±{:.2}", d.value_m, d.sigma_m)).unwrap_or_else(|| "--".into());
+                let f = |d: Option<undertone_dsp::locate::guidance::Distance>| {
+                    d.map(|d| format!("{:+.2}±{:.2}", d.value_m, d.sigma_m)).unwrap_or_else(|| "--".into())
+                };
                 let _ = writeln!(
                     w,
-                    "{t:6.2} {:6.2} {:6.2} {:5.0} snr{:5.1} bear{:6.1} {:8} {:7} {:7} {:12} ahead {:>11} left {:>11} depth {:>6} | true ahead {:+.2} left {:+.2} | {act:?}",
+                    "{t:6.2} {:6.2} {:6.2} {:5.0} snr{:5.1} bear{:6.1} {:8} {:7} {:7} {:12} ahead {:>11} left {:>11} depth {:>6} | {} | true ahead {:+.2} left {:+.2} depth {:.2} | {act:?}",
                     pose.x_m,
                     pose.y_m,
                     pose.heading_rad.to_degrees(),
@@ -245,8 +388,20 @@ fn one<const N: usize>(sc: &Scenario, head: Head<N>, index: usize, seed: u64, ra
                     f(g.ahead),
                     f(g.left),
                     r.depth.map(|d| format!("{:.2}", d.depth.depth_m)).unwrap_or_else(|| "--".into()),
+                    r.place
+                        .map(|p| format!(
+                            "fit h {:.2}±{:.2} pitch {:+.0} st {:2} chi2/dof {:.1} alt {:.1}",
+                            p.depth_m.value,
+                            p.depth_m.sigma,
+                            p.pitch_rad.value.to_degrees(),
+                            p.stations,
+                            p.chi2 / p.dof.max(1) as f32,
+                            p.runner_up_chi2
+                        ))
+                        .unwrap_or_else(|| "no fit".into()),
                     tr.ahead_m,
-                    tr.left_m
+                    tr.left_m,
+                    tr.depth_m
                 );
             }
         }
@@ -266,46 +421,80 @@ fn one<const N: usize>(sc: &Scenario, head: Head<N>, index: usize, seed: u64, ra
 /// The operator's next act from the hint shown.
 fn decide<const N: usize>(act: Act, r: &Readout<N>) -> Act {
     let g = &r.guidance;
+    let aligned = (r.bearing_deg as f64).abs() <= ALIGNED_DEG;
+    // Moves of a set distance are finished first; a turn goes on until in line.
+    match act {
+        Act::Walk { to_go: Some(_), .. } | Act::Sweep { .. } | Act::Side { .. } if g.hint != Hint::Wait => return act,
+        Act::Turn if !aligned && g.hint == Hint::TurnInLine => return act,
+        // After each move the operator stands a moment and reads the screen.
+        Act::Still { stood } if stood < PAUSE_S && g.hint != Hint::Wait => return act,
+        _ => {}
+    }
+    let still = match act {
+        Act::Still { .. } => act,
+        _ => Act::STILL,
+    };
+    let shown = |d: Option<undertone_dsp::locate::guidance::Distance>| d.map(|d| (d.value_m as f64).abs());
     match g.hint {
-        Hint::Wait | Hint::HoldStill => Act::Still,
+        Hint::Wait | Hint::HoldStill => still,
         Hint::TurnInLine => {
-            if r.bearing_deg.abs() > 5.0 {
-                Act::Turn
+            if aligned {
+                still
             } else {
-                Act::Still
+                Act::Turn
             }
         }
-        Hint::WalkAhead => Act::Walk { dir: 1.0, walked: keep_walked(act, 1.0) },
-        Hint::WalkBack => Act::Walk { dir: -1.0, walked: keep_walked(act, -1.0) },
+        Hint::WalkAhead | Hint::WalkBack => {
+            let dir = if g.hint == Hint::WalkAhead { 1.0 } else { -1.0 };
+            match shown(g.ahead) {
+                Some(d) if d < NEAR_M => Act::Walk { dir, walked: 0.0, to_go: Some(d) },
+                _ => Act::Walk { dir, walked: keep_walked(act, dir), to_go: None },
+            }
+        }
         Hint::WalkOtherWay => match act {
-            Act::Walk { dir, walked } if walked > 0.5 => Act::Walk { dir: -dir, walked: 0.0 },
+            Act::Walk { dir, walked, .. } if walked > 0.5 => Act::Walk { dir: -dir, walked: 0.0, to_go: None },
             Act::Walk { .. } => act,
-            _ => Act::Walk { dir: -1.0, walked: 0.0 },
+            _ => Act::Walk { dir: -1.0, walked: 0.0, to_go: None },
         },
         Hint::WalkAlong => match act {
             // Keep walking the way chosen; after 3 m without an answer, turn back.
-            Act::Walk { dir, walked } if walked < 3.0 => Act::Walk { dir, walked },
-            Act::Walk { dir, .. } => Act::Walk { dir: -dir, walked: 0.0 },
-            Act::Sweep { .. } | Act::Side { .. } => act,
-            _ => Act::Walk { dir: 1.0, walked: 0.0 },
+            Act::Walk { dir, walked, to_go: None } if walked < 3.0 => act.with(dir, walked),
+            Act::Walk { dir, .. } => Act::Walk { dir: -dir, walked: 0.0, to_go: None },
+            _ => Act::Walk { dir: 1.0, walked: 0.0, to_go: None },
         },
-        Hint::SweepAlong => match act {
-            Act::Sweep { .. } | Act::Side { .. } => act,
-            _ => Act::Sweep { left: SWEEP_M, dir: 1.0, legs: 2 },
-        },
-        Hint::StepLeft | Hint::StepRight => match act {
-            Act::Side { .. } | Act::Sweep { .. } => act,
-            _ => {
-                let dist = g.left.map(|d| d.value_m.abs() as f64).unwrap_or(0.2).clamp(0.05, 2.0);
-                Act::Side { dir: if g.hint == Hint::StepLeft { 1.0 } else { -1.0 }, left: dist }
-            }
-        },
+        Hint::SweepAlong => {
+            let half = sweep(g.sweep_m);
+            Act::Sweep { left: half, dir: 1.0, legs: 3, half }
+        }
+        Hint::SweepAcross => {
+            let half = sweep(g.sweep_m);
+            Act::Side { dir: 1.0, left: half, legs: 3, half }
+        }
+        Hint::StepLeft | Hint::StepRight => {
+            let dist = shown(g.left).unwrap_or(0.2).clamp(0.05, 3.0);
+            Act::Side { dir: if g.hint == Hint::StepLeft { 1.0 } else { -1.0 }, left: dist, legs: 1, half: dist }
+        }
+    }
+}
+
+impl Act {
+    fn with(self, dir: f64, walked: f64) -> Act {
+        Act::Walk { dir, walked, to_go: None }
+    }
+}
+
+/// The sweep's half-length: as shown, else the default.
+fn sweep(shown_m: f32) -> f64 {
+    if shown_m > 0.0 {
+        (shown_m as f64).clamp(0.1, 2.0)
+    } else {
+        SWEEP_M
     }
 }
 
 fn keep_walked(act: Act, dir: f64) -> f64 {
     match act {
-        Act::Walk { dir: d, walked } if d == dir => walked,
+        Act::Walk { dir: d, walked, .. } if d == dir => walked,
         _ => 0.0,
     }
 }
@@ -315,38 +504,49 @@ fn step<const N: usize>(pose: Pose, act: &mut Act, r: Option<&Readout<N>>, dt: f
     let (s, c) = pose.heading_rad.sin_cos();
     let along = |p: Pose, d: f64| Pose { x_m: p.x_m + c * d, y_m: p.y_m + s * d, ..p };
     let side = |p: Pose, d: f64| Pose { x_m: p.x_m - s * d, y_m: p.y_m + c * d, ..p };
+    let leg = |legs: u8, half: f64| if legs == 3 { 2.0 * half } else { half };
     match act {
-        Act::Still => pose,
+        Act::Still { stood } => {
+            *stood += dt;
+            pose
+        }
         Act::Turn => {
             let bearing = r.map(|r| r.bearing_deg as f64).unwrap_or(0.0).to_radians();
             let turn = bearing.signum() * (TURN_RAD_S * dt).min(bearing.abs());
             Pose { heading_rad: pose.heading_rad + turn, ..pose }
         }
-        Act::Walk { dir, walked } => {
-            let near = r.and_then(|r| r.guidance.ahead).map(|a| (a.value_m as f64).abs() < 0.3).unwrap_or(false);
-            let v = if near { SLOW_M_S } else { WALK_M_S };
-            *walked += v * dt;
-            along(pose, *dir * v * dt)
+        Act::Walk { dir, walked, to_go } => {
+            let (d, done) = match to_go {
+                Some(g) => {
+                    let d = (STEP_M_S * dt).min(*g);
+                    *g -= d;
+                    (d, *g <= 1e-9)
+                }
+                None => (WALK_M_S * dt, false),
+            };
+            *walked += d;
+            let p = along(pose, *dir * d);
+            if done {
+                *act = Act::STILL;
+            }
+            p
         }
-        Act::Sweep { left, dir, legs } => {
+        Act::Sweep { left, dir, legs, half } => {
             let d = (STEP_M_S * dt).min(*left);
             *left -= d;
             let p = along(pose, *dir * d);
             if *left <= 1e-9 {
-                if *legs > 1 {
-                    *act = Act::Sweep { left: SWEEP_M, dir: -*dir, legs: *legs - 1 };
-                } else {
-                    *act = Act::Still;
-                }
+                *act =
+                    if *legs > 1 { Act::Sweep { left: leg(*legs, *half), dir: -*dir, legs: *legs - 1, half: *half } } else { Act::STILL };
             }
             p
         }
-        Act::Side { dir, left } => {
+        Act::Side { dir, left, legs, half } => {
             let d = (STEP_M_S * dt).min(*left);
             *left -= d;
             let p = side(pose, *dir * d);
             if *left <= 1e-9 {
-                *act = Act::Sweep { left: SWEEP_M, dir: 1.0, legs: 2 };
+                *act = if *legs > 1 { Act::Side { left: leg(*legs, *half), dir: -*dir, legs: *legs - 1, half: *half } } else { Act::STILL };
             }
             p
         }
@@ -369,17 +569,29 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
     let io = |e: std::io::Error| SimError::io(std::path::Path::new("<stdout>"), "write", e);
     crate::output::folder(out_dir)?;
     let pb = if std::io::stderr().is_terminal() { ProgressBar::new(starts as u64) } else { ProgressBar::hidden() };
-    pb.set_style(ProgressStyle::with_template("{bar:40} {pos}/{len} starts {elapsed_precise}").unwrap_or_else(|_| ProgressStyle::default_bar()));
+    pb.set_style(
+        ProgressStyle::with_template("{bar:40} {pos}/{len} starts {elapsed_precise}").unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
     let results = run(sc, starts, seed, &|| pb.inc(1))?;
     pb.finish_and_clear();
+    if std::env::var_os("UNDERTONE_DIAG").is_some() {
+        print_diag();
+    }
     let summary = summarise(sc, &results)?;
     if json {
         for r in &results {
-            writeln!(out, "{}", serde_json::to_string(r).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?).map_err(io)?;
+            writeln!(out, "{}", serde_json::to_string(r).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?)
+                .map_err(io)?;
         }
-        writeln!(out, "{}", serde_json::to_string(&summary).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?).map_err(io)?;
+        writeln!(out, "{}", serde_json::to_string(&summary).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?)
+            .map_err(io)?;
     } else {
-        writeln!(out, "Closed-loop locating: {} ({} starts within {:.2} m of the point over the sonde, seed {seed})", sc.name, summary.starts, summary.detection_range_m).map_err(io)?;
+        writeln!(
+            out,
+            "Closed-loop locating: {} ({} starts within {:.2} m of the point over the sonde, seed {seed})",
+            sc.name, summary.starts, summary.detection_range_m
+        )
+        .map_err(io)?;
         writeln!(
             out,
             "located {} of {} ({:.1} %); median time {}",
@@ -392,7 +604,8 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
         let fails: Vec<&StartResult> = results.iter().filter(|r| !r.located).collect();
         if !fails.is_empty() {
             writeln!(out, "not located:").map_err(io)?;
-            writeln!(out, "{:>6} {:>22} {:>8} {:>8} {:>9} {:>7}  why", "start", "from (m, m, deg)", "time s", "miss m", "depth m", "err %").map_err(io)?;
+            writeln!(out, "{:>6} {:>22} {:>8} {:>8} {:>9} {:>7}  why", "start", "from (m, m, deg)", "time s", "miss m", "depth m", "err %")
+                .map_err(io)?;
             for r in fails {
                 writeln!(
                     out,
@@ -412,11 +625,19 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
     // The tracks over the field map: located in white, not located in red (at most 40 of each).
     let mut tracks: Vec<crate::plots::Track> = Vec::new();
     for r in results.iter().filter(|r| r.located).take(40) {
-        tracks.push((if tracks.is_empty() { "located".into() } else { String::new() }, r.path.clone(), plotters::style::RGBColor(255, 255, 255)));
+        tracks.push((
+            if tracks.is_empty() { "located".into() } else { String::new() },
+            r.path.clone(),
+            plotters::style::RGBColor(255, 255, 255),
+        ));
     }
     let mut first_fail = true;
     for r in results.iter().filter(|r| !r.located).take(40) {
-        tracks.push((if first_fail { "not located".into() } else { String::new() }, r.path.clone(), plotters::style::RGBColor(255, 60, 60)));
+        tracks.push((
+            if first_fail { "not located".into() } else { String::new() },
+            r.path.clone(),
+            plotters::style::RGBColor(255, 60, 60),
+        ));
         first_fail = false;
     }
     let files = crate::map::field_map(sc, out_dir, "locate-tracks", "operator tracks over the horizontal field", false, &tracks, 0.0)?;

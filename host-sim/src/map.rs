@@ -28,7 +28,15 @@ pub fn map(sc: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>> {
 
 /// One field map (horizontal field in dB re 1 nT, or the signed vertical field in nT) as
 /// `stem.png`/`stem.svg` in `out_dir`, with `tracks` and the sonde's own track over `dur_s`.
-pub fn field_map(sc: &Scenario, out_dir: &Path, stem: &str, title: &str, vertical: bool, tracks: &[crate::plots::Track], dur_s: f64) -> Result<Vec<PathBuf>> {
+pub fn field_map(
+    sc: &Scenario,
+    out_dir: &Path,
+    stem: &str,
+    title: &str,
+    vertical: bool,
+    tracks: &[crate::plots::Track],
+    dur_s: f64,
+) -> Result<Vec<PathBuf>> {
     crate::output::folder(out_dir)?;
     let dur = dur_s;
     let s = &sc.sonde;

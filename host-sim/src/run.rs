@@ -96,28 +96,37 @@ pub struct Row {
     pub freq_offset_sigma_hz: f64,
     /// Flags.
     pub flags: Vec<&'static str>,
-    /// The locator's along/across track: placed?, u, σu, axis angle (deg), η, ση.
-    pub track: TrackRow,
+    /// The fit over the trail of stations, when there is one.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub trail: Option<TrailRow>,
     /// Truth (simulation only).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub truth: Option<TruthRow>,
 }
 
-/// The locator's track, as printed.
+/// The trail fit, as printed.
 #[derive(Clone, Copy, Debug, Serialize, PartialEq)]
-pub struct TrackRow {
-    /// The side bit is known.
-    pub placed: bool,
-    /// Along offset past the sonde over depth (when placed).
-    pub u: f64,
-    /// Its σ.
-    pub sigma_u: f64,
+pub struct TrailRow {
+    /// Stations in the fit.
+    pub stations: u8,
+    /// χ² of the readings over their degrees of freedom.
+    pub chi2_per_dof: f64,
+    /// Sonde pitch, degrees, and its σ.
+    pub pitch_deg: f64,
+    /// σ of the pitch, degrees.
+    pub pitch_sigma_deg: f64,
     /// Sonde axis from the handle, degrees.
-    pub axis_deg: f64,
-    /// Lateral offset over depth.
-    pub eta: f64,
-    /// Its σ.
-    pub sigma_eta: f64,
+    pub yaw_deg: f64,
+    /// Depth below the lower coil the fit finds (shown or not), m.
+    pub depth_m: f64,
+    /// Its σ, m.
+    pub depth_sigma_m: f64,
+    /// Another fit as good puts the sonde elsewhere ahead/behind.
+    pub ambiguous_ahead: bool,
+    /// … or left/right.
+    pub ambiguous_left: bool,
+    /// Head speed over the last stations, m/s.
+    pub speed_m_s: f64,
 }
 
 /// Truth beside a readout.
@@ -214,14 +223,18 @@ pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>) -> 
         freq_offset_hz: r.freq_offset_hz as f64,
         freq_offset_sigma_hz: r.freq_offset_sigma_hz as f64,
         flags: r.flags.names().collect(),
-        track: TrackRow {
-            placed: r.track.placed,
-            u: r.track.u as f64,
-            sigma_u: r.track.sigma_u as f64,
-            axis_deg: (r.track.axis_rad as f64).to_degrees(),
-            eta: r.track.eta as f64,
-            sigma_eta: if r.track.sigma_eta.is_finite() { r.track.sigma_eta as f64 } else { 1e9 },
-        },
+        trail: r.place.map(|p| TrailRow {
+            stations: p.stations,
+            chi2_per_dof: p.chi2 as f64 / p.dof.max(1) as f64,
+            pitch_deg: (p.pitch_rad.value as f64).to_degrees(),
+            pitch_sigma_deg: (p.pitch_rad.sigma as f64).to_degrees(),
+            yaw_deg: (p.yaw_rad.value as f64).to_degrees(),
+            depth_m: p.depth_m.value as f64,
+            depth_sigma_m: p.depth_m.sigma as f64,
+            ambiguous_ahead: p.ambiguous_ahead,
+            ambiguous_left: p.ambiguous_left,
+            speed_m_s: p.speed_m_s as f64,
+        }),
         truth,
     }
 }

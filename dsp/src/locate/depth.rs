@@ -81,6 +81,10 @@ pub enum Withheld {
     Uncertain,
     /// The receiver cannot yet tell which side the sonde is: walk along the handle.
     NeedsMotion,
+    /// Another placement of the sonde explains the readings as well.
+    Ambiguous,
+    /// The head is moving; "over" waits until it is still.
+    Moving,
 }
 
 impl Withheld {
@@ -104,6 +108,8 @@ impl Withheld {
             Withheld::Distorted => "distorted",
             Withheld::Uncertain => "uncertain",
             Withheld::NeedsMotion => "needs-motion",
+            Withheld::Ambiguous => "ambiguous",
+            Withheld::Moving => "moving",
         }
     }
 }

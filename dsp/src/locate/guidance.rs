@@ -84,9 +84,13 @@ pub enum Hint {
     StepLeft,
     /// Step to the right, keeping the heading.
     StepRight,
-    /// Over the peak along the axis but the lateral offset is unknown: walk a
-    /// short way along the handle and back, keeping the heading.
+    /// The receiver needs to see the field change: walk the distance shown
+    /// ([`Guidance::sweep_m`]) forward along the handle, twice that back, and
+    /// forward to the start, keeping the heading.
     SweepAlong,
+    /// The same sideways: step the distance shown to the left, twice that to
+    /// the right, and back, keeping the heading.
+    SweepAcross,
     /// Over the sonde: hold still and read the depth.
     HoldStill,
 }
@@ -104,6 +108,7 @@ impl Hint {
             Hint::StepLeft => "step-left",
             Hint::StepRight => "step-right",
             Hint::SweepAlong => "sweep-along",
+            Hint::SweepAcross => "sweep-across",
             Hint::HoldStill => "hold-still",
         }
     }
@@ -138,12 +143,23 @@ pub struct Guidance {
     /// Vertical over horizontal field at the lower coils, `Bz/|Bh|` (sign: the
     /// horizontal field taken facing forward).
     pub vertical_ratio: f32,
+    /// How far each way to sweep when the hint is a sweep, m (0 otherwise).
+    pub sweep_m: f32,
 }
 
 impl Guidance {
     /// Nothing known, for `why`.
     pub const fn unsure(why: Withheld, hint: Hint) -> Self {
-        Guidance { along: Along::Unsure, across: Across::Unsure, ahead: None, left: None, why: Some(why), hint, vertical_ratio: 0.0 }
+        Guidance {
+            along: Along::Unsure,
+            across: Across::Unsure,
+            ahead: None,
+            left: None,
+            why: Some(why),
+            hint,
+            vertical_ratio: 0.0,
+            sweep_m: 0.0,
+        }
     }
 
     /// Over the sonde in both directions.

@@ -11,14 +11,16 @@
 //!    tail with 6 degrees of freedom at 31.6, Abramowitz & Stegun eq. 26.4.21),
 //!    `weak` below [`LocatorSettings::locate_snr_db`] (no depth).
 //! 3. Orientation with hysteresis (in line / crossed).
-//! 4. The along/across [`Track`] (4-coil heads; also the 6-coil head's lower triad).
-//! 5. The one-station fit (6-coil heads), with the lateral offset known from
-//!    the track as a prior.
-//! 6. Offsets from the point over the sonde (fit where it is well determined,
-//!    else the track) → [`Guidance`].
+//! 4. The [`Trail`]: every station the head has passed lately, fitted together
+//!    to one sonde (position relative to the head, depth, pitch, with σ and
+//!    the alternatives the readings cannot rule out).
+//! 5. The one-station fit (6-coil heads), with the trail's lateral offset as a prior.
+//! 6. The trail's place → [`Guidance`]: a direction only where its ±2σ and
+//!    every equally good alternative agree, "over" only within the over
+//!    tolerance in both directions while the head is still.
 //! 7. Depths, each gated (signal, settling, clipping, over the sonde in both
-//!    directions, not beyond the nulls) and with σ covering noise, the coils'
-//!    gain tolerance and the offsets' own uncertainty.
+//!    directions) and with σ covering noise, the coils' gain tolerance and the
+//!    offsets' own uncertainty.
 
 use crate::error::{ConfigError, Param};
 use crate::field::head::Head;
@@ -30,7 +32,7 @@ use crate::locate::depth::{gradient_depth, known_moment_depth, solve_g, CoilPair
 use crate::locate::fit::{fit_from, Fix, LateralPrior, P};
 use crate::locate::guidance::{over_tolerance_m, Across, Along, Distance, Guidance, Hint};
 use crate::locate::orientation::{Hysteresis, Orientation};
-use crate::locate::track::{Track, TrackInput, TrackState};
+use crate::locate::trail::{Motion, Place, Reading, Trail, TrailSettings};
 use crate::phasor::C32;
 
 /// Is there a beacon tone to locate?
@@ -153,6 +155,8 @@ pub enum DepthMethod {
     Fit,
     /// Field over the sonde and a calibrated strength.
     KnownMoment,
+    /// The fit over the trail of stations.
+    Trail,
 }
 
 impl DepthMethod {
@@ -162,6 +166,7 @@ impl DepthMethod {
             DepthMethod::Gradient => "gradient",
             DepthMethod::Fit => "fit",
             DepthMethod::KnownMoment => "known-moment",
+            DepthMethod::Trail => "trail",
         }
     }
 }
@@ -189,8 +194,8 @@ pub struct Located<const N: usize> {
     pub depth: Option<ShownDepth>,
     /// The one-station fix, when the fit ran.
     pub fix: Option<Fix>,
-    /// The track's state (for reports and tests).
-    pub track: TrackState,
+    /// Where the trail puts the sonde (for reports and tests).
+    pub place: Option<Place>,
     /// Flags the locator sets: NO_SIGNAL, WEAK, QUADRATURE, DISTORTED.
     pub flags: Flags,
 }
@@ -212,7 +217,11 @@ pub struct Locator<const N: usize> {
     settings: LocatorSettings,
     head: Head<N>,
     state: Orientation,
-    track: Track,
+    trail: Trail<N>,
+    last_hint: Hint,
+    /// Seconds the head has been still (by the trail's speed), 0 while moving.
+    still_for_s: f32,
+    last_t_s: f64,
     last_fix: Option<[f32; P]>,
     held_fix: Option<Fix>,
     readouts: u32,
@@ -243,12 +252,20 @@ impl<const N: usize> Locator<N> {
             settings,
             head,
             state: Orientation::Unknown,
-            track: Track::new(),
+            trail: Trail::new(&head, trail_settings(&settings)),
+            last_hint: Hint::Wait,
+            still_for_s: 0.0,
+            last_t_s: 0.0,
             last_fix: None,
             held_fix: None,
             readouts: 0,
             last_depth_m: None,
         })
+    }
+
+    /// The trail of stations (for reports and tests).
+    pub fn trail(&self) -> &Trail<N> {
+        &self.trail
     }
 
     /// Settings in force.
@@ -268,7 +285,7 @@ impl<const N: usize> Locator<N> {
 
     /// Forget what was learnt from earlier readouts (after a converter restart or a settings change).
     pub fn forget(&mut self) {
-        self.track.reset();
+        self.trail.clear();
         self.last_fix = None;
         self.held_fix = None;
         self.last_depth_m = None;
@@ -300,10 +317,10 @@ impl<const N: usize> Locator<N> {
         let white = |i: u8| field.signed[i as usize] / field.sigma[i as usize].max(1e-30);
         let snr = libm::sqrtf(lo.iter().flatten().map(|&i| white(i) * white(i)).sum::<f32>()).clamp(0.0, 1e15);
         let snr_db = 20.0 * libm::log10f(snr.max(1e-6));
-        // A detection with a non-finite phasor or no noise estimate on the lower coils is not
+        // A detection with a non-finite phasor or no noise estimate on any coil is not
         // a usable measurement (the detector flags the cause); nothing is located from it.
-        let usable = lo.iter().flatten().all(|&i| {
-            let (p, n) = (phasors[i as usize], noise_sigma[i as usize]);
+        let usable = (0..N).all(|i| {
+            let (p, n) = (phasors[i], noise_sigma[i]);
             p.is_finite() && n.is_finite() && n > 0.0
         });
         let signal = if !usable { Signal::Absent } else { classify_signal(snr, &s) };
@@ -311,48 +328,82 @@ impl<const N: usize> Locator<N> {
         self.state = s.hysteresis.next(self.state, field.bearing_rad.to_degrees(), present && field.horizontal > 3.0 * sig_lo);
         let settling = det_flags.contains(Flags::SETTLING);
         let clipped = det_flags.contains(Flags::CLIPPED);
-        // 4. The track (needs the lower triad).
-        let triad = lo.iter().all(|r| r.is_some());
-        let track = if present && !settling && triad {
-            self.track.update(&TrackInput {
+        // 4. The trail.
+        let place = if present && !settling && !clipped {
+            let motion = match self.last_hint {
+                Hint::TurnInLine => Motion::Turn,
+                Hint::Wait | Hint::HoldStill => Motion::Hold,
+                Hint::StepLeft | Hint::StepRight | Hint::SweepAcross => Motion::Side,
+                Hint::WalkAhead | Hint::WalkBack | Hint::WalkAlong | Hint::WalkOtherWay | Hint::SweepAlong => Motion::Along,
+            };
+            let mut sigma = field.sigma;
+            for v in sigma.iter_mut() {
+                *v = v.max(1e-30);
+            }
+            self.trail.update(&Reading {
                 t_s: timing.t_s as f32,
-                lower: field.lower,
-                sigma: [0, 1, 2].map(|k| lo[k].map(|i| field.sigma[i as usize]).unwrap_or(sig_lo).max(1e-30)),
+                signed: field.signed,
+                sigma,
+                motion,
                 noise_corr_s: timing.noise_corr_s,
                 group_delay_s: timing.group_delay_s,
             })
         } else {
             if !present {
-                self.track.note_absent(timing.t_s as f32);
+                self.trail.note_absent(timing.t_s as f32);
             }
-            *self.track.state()
+            None
         };
+        let dt = (timing.t_s - self.last_t_s).clamp(0.0, 1.0) as f32;
+        self.last_t_s = timing.t_s;
+        let h_now = place.map(|p| p.depth_m.value).unwrap_or(1.0).max(0.05);
+        match place {
+            Some(p) if p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
+            _ => self.still_for_s = 0.0,
+        }
         // 5. The fit.
-        let fix = self.fix(&field, &track, present && !settling && signal == Signal::Good);
-        let distorted = fix.map(|f| f.dof > 0 && f.chi2 / f.dof as f32 > s.distortion_chi2).unwrap_or(false);
-        // 6. Offsets and guidance.
-        // A depth for tolerances and distances: the last one shown, else the fit's, else the
-        // gradient ratio read as if over the sonde (good enough to scale a tolerance).
-        let h_hint = self.last_depth_m.or(fix.filter(|f| f.converged).map(|f| f.depth_m.value)).or_else(|| self.provisional_depth(&field));
-        let offsets = self.offsets(&track, fix.as_ref(), h_hint);
+        let fix = self.fix(&field, place.as_ref(), present && !settling && signal == Signal::Good);
+        // A trail fit that does not explain the readings is not used (its stations are
+        // dropped as the person moves on); a poor one-station fit flags the field.
+        let raw_place = place;
+        let place = place.filter(|p| p.consistent);
+        let fix_distorted = fix.map(|f| f.dof > 0 && f.chi2 / f.dof as f32 > s.distortion_chi2).unwrap_or(false);
+        let distorted = fix_distorted;
+        // 6. Guidance.
+        let h_hint = place
+            .filter(|p| p.depth_m.sigma < 0.3 * p.depth_m.value)
+            .map(|p| p.depth_m.value)
+            .or(self.last_depth_m)
+            .or_else(|| self.provisional_depth(&field));
+        // Asked to turn, the person turns until the bearing is within a third of the limit.
+        let limit = if self.last_hint == Hint::TurnInLine { TURN_BEARING_RAD / 3.0 } else { TURN_BEARING_RAD };
+        let out_of_line = field.horizontal > 5.0 * sig_lo && libm::fabsf(field.bearing_rad) > limit;
         let mut guidance = if !present {
             Guidance::unsure(Withheld::NoSignal, Hint::Wait)
         } else if settling {
             Guidance::unsure(Withheld::Settling, Hint::Wait)
         } else {
-            let out_of_line = field.horizontal > 5.0 * sig_lo && libm::fabsf(field.bearing_rad) > TURN_BEARING_RAD;
-            self.guidance(&offsets, &track, h_hint, clipped, self.state, out_of_line)
+            self.directions(place.as_ref(), h_hint, clipped, distorted, out_of_line)
         };
         guidance.vertical_ratio = field.vertical_ratio();
+        self.last_hint = guidance.hint;
         // 7. Depths.
-        let gate = self.depth_gate(signal, settling, clipped, distorted, &offsets, &guidance);
-        let (gradient, known) = match gate {
-            Err(w) => (Err(w), Err(w)),
-            Ok(at) => (self.gradient(&field, at), self.known_moment(&field, sig_lo, at)),
+        let gate = self.depth_gate(signal, settling, clipped, distorted, place.as_ref(), &guidance);
+        let (gradient, known, trail_depth) = match gate {
+            Err(w) => (Err(w), Err(w), Err(w)),
+            Ok(at) => (self.gradient(&field, at), self.known_moment(&field, sig_lo, at), self.trail_depth(place.as_ref())),
         };
-        let fit_depth = self.fit_depth(fix.as_ref(), signal, settling, clipped, distorted);
+        let fit_depth = match gate {
+            Err(w) => Err(w),
+            Ok(_) => self.fit_depth(fix.as_ref(), signal, settling, clipped, distorted),
+        };
         let mut best: Option<(DepthMethod, Depth)> = None;
-        for (m, e) in [(DepthMethod::Gradient, gradient), (DepthMethod::Fit, fit_depth), (DepthMethod::KnownMoment, known)] {
+        for (m, e) in [
+            (DepthMethod::Trail, trail_depth),
+            (DepthMethod::Gradient, gradient),
+            (DepthMethod::Fit, fit_depth),
+            (DepthMethod::KnownMoment, known),
+        ] {
             if let Ok(d) = e {
                 if best.map(|b| d.sigma_m < b.1.sigma_m).unwrap_or(true) {
                     best = Some((m, d));
@@ -368,11 +419,24 @@ impl<const N: usize> Locator<N> {
         flags.set(Flags::WEAK, signal == Signal::Weak);
         flags.set(Flags::QUADRATURE, present && field.quadrature > s.quadrature_limit);
         flags.set(Flags::DISTORTED, distorted);
-        Located { field, signal, snr_db, state: self.state, guidance, gradient, known_moment: known, fit_depth, depth, fix, track, flags }
+        Located {
+            field,
+            signal,
+            snr_db,
+            state: self.state,
+            guidance,
+            gradient,
+            known_moment: known,
+            fit_depth,
+            depth,
+            fix,
+            place: raw_place,
+            flags,
+        }
     }
 
     /// Step 5: the one-station fit, when the head has two triads (every `fit_every` readouts).
-    fn fix(&mut self, field: &FieldVector<N>, track: &TrackState, usable: bool) -> Option<Fix> {
+    fn fix(&mut self, field: &FieldVector<N>, place: Option<&Place>, usable: bool) -> Option<Fix> {
         let s = &self.settings;
         let r = self.head.roles;
         let triads = r.lower.iter().chain(r.upper.iter()).all(|x| x.is_some());
@@ -390,146 +454,82 @@ impl<const N: usize> Locator<N> {
         for v in sig.iter_mut() {
             *v = v.max(1e-30);
         }
-        // The track's lateral offset, turned into the head frame: the sonde is
-        // −u·h·sin β − η·h·cos β to the left; over depth: −u sin β − η cos β.
-        let prior = if track.sigma_eta.is_finite() {
-            let (sb, cb) = (libm::sinf(track.axis_rad), libm::cosf(track.axis_rad));
-            let u = if track.placed { track.u } else { 0.0 };
-            let su = if track.placed { track.sigma_u } else { 1.0 };
-            LateralPrior {
-                left_over_depth: -u * sb - track.eta * cb,
-                sigma: libm::hypotf(track.sigma_eta * cb, su * sb).clamp(0.02, VAGUE_SIGMA),
-            }
-        } else {
-            LateralPrior { left_over_depth: 0.0, sigma: VAGUE_SIGMA }
+        // The trail's lateral offset over its depth, as a prior.
+        let prior = match place {
+            Some(p) if p.left_m.sigma.is_finite() && p.depth_m.value > 0.0 => LateralPrior {
+                left_over_depth: p.left_m.value / p.depth_m.value,
+                sigma: (p.left_m.sigma / p.depth_m.value).clamp(0.02, VAGUE_SIGMA),
+            },
+            _ => LateralPrior { left_over_depth: 0.0, sigma: VAGUE_SIGMA },
         };
-        let f = fit_from(&self.head, &field.signed, &sig, k, self.last_fix, Some(prior));
+        let f = fit_from(&self.unit_head(), &field.signed, &sig, k, self.last_fix, Some(prior));
         self.last_fix = f.converged.then_some(f.params());
         self.held_fix = Some(f);
         Some(f)
     }
 
-    /// Step 6a: the receiver's offsets from the point over the sonde, in depths.
-    fn offsets(&self, track: &TrackState, fix: Option<&Fix>, h_hint: Option<f32>) -> Option<Placement> {
-        // The fit, where it has converged and placed the sonde precisely along the axis.
-        if let Some(f) = fix.filter(|f| f.converged && f.depth_m.value > 0.0) {
-            let h = f.depth_m.value;
-            if f.ahead_m.sigma < 0.1 * h && f.depth_m.sigma < 0.2 * h {
-                // The fit's frame is the head's: ahead and left of the sonde directly.
-                return Some(Placement {
-                    ahead_m: Some(Distance { value_m: f.ahead_m.value, sigma_m: f.ahead_m.sigma }),
-                    left_m: Some(Distance { value_m: f.left_m.value, sigma_m: f.left_m.sigma }).filter(|d| d.sigma_m.is_finite()),
-                    inside: (f.ahead_m.value * f.ahead_m.value) < 0.5 * h * h,
-                    axis_rad: f.yaw_rad.value,
-                    u_rate_per_s: track.u_rate_per_s,
-                    offsets: Offsets {
-                        u: -(f.ahead_m.value * libm::cosf(f.yaw_rad.value) + f.left_m.value * libm::sinf(f.yaw_rad.value)) / h,
-                        sigma_u: f.ahead_m.sigma / h,
-                        eta: (f.ahead_m.value * libm::sinf(f.yaw_rad.value) - f.left_m.value * libm::cosf(f.yaw_rad.value)) / h,
-                        sigma_eta: f.left_m.sigma / h,
-                    },
-                });
-            }
+    /// The head with unit gains (the field is already gain-corrected).
+    fn unit_head(&self) -> Head<N> {
+        let mut h = self.head;
+        for c in h.coils.iter_mut() {
+            c.gain = 1.0;
         }
-        if !track.placed {
-            return None;
-        }
-        let (sb, cb) = (libm::sinf(track.axis_rad), libm::cosf(track.axis_rad));
-        let at = Offsets { u: track.u, sigma_u: track.sigma_u, eta: track.eta, sigma_eta: track.sigma_eta };
-        let dist = |h: f32| {
-            // The sonde relative to the receiver, head frame: −u·h·m̂ − η·h·(ẑ×m̂), m̂ = (cos β, sin β).
-            let ahead = Distance { value_m: h * (-at.u * cb + at.eta * sb), sigma_m: h * libm::hypotf(at.sigma_u * cb, at.sigma_eta * sb) };
-            let left = Distance { value_m: h * (-at.u * sb - at.eta * cb), sigma_m: h * libm::hypotf(at.sigma_u * sb, at.sigma_eta * cb) };
-            (ahead, left)
-        };
-        let (ahead, left) = match h_hint {
-            Some(h) => {
-                let (a, l) = dist(h);
-                (Some(a), Some(l).filter(|d| d.sigma_m.is_finite()))
-            }
-            None => (None, None),
-        };
-        Some(Placement {
-            ahead_m: ahead,
-            left_m: left,
-            inside: track.inside,
-            axis_rad: track.axis_rad,
-            offsets: at,
-            u_rate_per_s: track.u_rate_per_s,
-        })
+        h
     }
 
-    /// Step 6b: guidance from the placement.
-    fn guidance(&self, placement: &Option<Placement>, track: &TrackState, h_hint: Option<f32>, clipped: bool, state: Orientation, out_of_line: bool) -> Guidance {
-        let mut g = self.directions(placement, track, h_hint, clipped, state);
-        // The procedure walks along the handle in line with the field: turn first.
-        if out_of_line || state == Orientation::Crossed {
-            g.hint = Hint::TurnInLine;
-        }
-        g
-    }
-
-    /// The directions and the hint before the in-line check.
-    fn directions(&self, placement: &Option<Placement>, track: &TrackState, h_hint: Option<f32>, clipped: bool, state: Orientation) -> Guidance {
-        let Some(p) = placement else {
-            // Not yet placed: follow the field (in line) the way it gets stronger.
-            let hint = if state == Orientation::Crossed {
-                Hint::TurnInLine
-            } else if track.falling {
-                Hint::WalkOtherWay
-            } else {
-                Hint::WalkAlong
-            };
+    /// Step 6: the directions and the hint.
+    fn directions(&self, place: Option<&Place>, h_hint: Option<f32>, clipped: bool, distorted: bool, out_of_line: bool) -> Guidance {
+        let Some(p) = place else {
+            // Nothing fitted yet: line up with the field, then walk so the field changes.
+            let hint = if out_of_line || self.state == Orientation::Crossed { Hint::TurnInLine } else { Hint::WalkAlong };
             return Guidance::unsure(Withheld::NeedsMotion, hint);
         };
+        let h = h_hint.unwrap_or(p.depth_m.value).max(0.05);
+        let tol = over_tolerance_m(h);
         let mut g = Guidance {
             along: Along::Unsure,
             across: Across::Unsure,
-            ahead: p.ahead_m,
-            left: p.left_m,
+            ahead: Some(Distance { value_m: p.ahead_m.value, sigma_m: p.ahead_m.sigma })
+                .filter(|d| d.sigma_m.is_finite() && d.value_m.is_finite()),
+            left: Some(Distance { value_m: p.left_m.value, sigma_m: p.left_m.sigma })
+                .filter(|d| d.sigma_m.is_finite() && d.value_m.is_finite()),
             why: None,
             hint: Hint::WalkAlong,
             vertical_ratio: 0.0,
+            sweep_m: 0.0,
         };
-        let cb = libm::cosf(p.axis_rad);
-        // Crossed (the field across the handle) or the axis far from the handle: turn first.
-        if state == Orientation::Crossed || libm::fabsf(cb) < libm::cosf(MAX_AXIS_ANGLE_RAD) {
-            g.why = Some(Withheld::NotInLine);
-            g.hint = Hint::TurnInLine;
+        if distorted {
+            g.ahead = None;
+            g.left = None;
+            g.why = Some(Withheld::Distorted);
             return g;
         }
-        // Tolerance in depths where the depth is not yet known: 0.1 (the tighter of the two).
-        let tol_u = match h_hint {
-            Some(h) => over_tolerance_m(h) / h,
-            None => 0.1,
-        };
-        let o = p.offsets;
-        // Along: the sonde is ahead when −u·cos β > 0 (u: receiver past the sonde along m̂).
-        let along_u = -o.u * cb.signum();
-        // "Over" only when the receiver is (nearly) still along the axis: a readout describes
-        // the field a group delay before it is shown, and a person walking through the peak
-        // is better told "behind" the moment they pass it than "over" a step late.
-        let still = libm::fabsf(p.u_rate_per_s) < MAX_OVER_SPEED_DEPTHS_PER_S;
-        g.along = if still && libm::fabsf(o.u) + 2.0 * o.sigma_u < tol_u {
+        // A readout describes the field a little before it is shown; "over" only while still.
+        let still = p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h && self.still_for_s > 0.0;
+        let (a, sa) = (p.ahead_m.value, p.ahead_m.sigma);
+        let (l, sl) = (p.left_m.value, p.left_m.sigma);
+        let within_a = libm::fabsf(a) + 2.0 * sa <= tol;
+        let within_l = libm::fabsf(l) + 2.0 * sl <= tol;
+        g.along = if p.ambiguous_ahead || !sa.is_finite() {
+            Along::Unsure
+        } else if within_a && still {
             Along::Over
-        } else if along_u - 2.0 * o.sigma_u > 0.0 {
+        } else if within_a {
+            Along::Unsure
+        } else if a - 2.0 * sa > 0.0 {
             Along::Ahead
-        } else if along_u + 2.0 * o.sigma_u < 0.0 {
+        } else if a + 2.0 * sa < 0.0 {
             Along::Behind
         } else {
             Along::Unsure
         };
-        // Across: the sonde's left offset is −η·cos β (plus −u·sin β, small when in line).
-        let sb = libm::sinf(p.axis_rad);
-        let left_u = -o.eta * cb - o.u * sb;
-        let sigma_left = libm::hypotf(o.sigma_eta * cb, o.sigma_u * sb);
-        g.across = if !sigma_left.is_finite() {
+        g.across = if p.ambiguous_left || !sl.is_finite() {
             Across::Unsure
-        } else if libm::fabsf(left_u) + 2.0 * sigma_left < tol_u {
+        } else if within_l {
             Across::Centred
-        } else if left_u - 2.0 * sigma_left > 0.0 {
+        } else if l - 2.0 * sl > 0.0 {
             Across::Left
-        } else if left_u + 2.0 * sigma_left < 0.0 {
+        } else if l + 2.0 * sl < 0.0 {
             Across::Right
         } else {
             Across::Unsure
@@ -538,29 +538,64 @@ impl<const N: usize> Locator<N> {
             g.along = Along::Unsure;
             g.why = Some(Withheld::Clipped);
         }
-        g.hint = match (g.along, g.across) {
-            (Along::Ahead, _) => Hint::WalkAhead,
-            (Along::Behind, _) => Hint::WalkBack,
-            (Along::Over, Across::Centred) => Hint::HoldStill,
-            (Along::Over, Across::Left) => Hint::StepLeft,
-            (Along::Over, Across::Right) => Hint::StepRight,
-            (Along::Over, Across::Unsure) => Hint::SweepAlong,
-            (Along::Unsure, _) => Hint::WalkAlong,
+        if p.ambiguous_ahead {
+            g.ahead = None;
+        }
+        if p.ambiguous_left {
+            g.left = None;
+        }
+        // The order of moves: a known lateral offset first (it is read best away from the
+        // point over the sonde, where the vertical field is not zero), then along; near but
+        // not yet sure, stand still a moment, then sweep along to see the field change.
+        let side_known = g.across == Across::Left || g.across == Across::Right;
+        let settled = self.still_for_s >= SETTLE_S;
+        let sweep = (0.5 * h).clamp(0.3, 1.0);
+        g.hint = if side_known && sl < 0.5 * libm::fabsf(l) {
+            if l > 0.0 {
+                Hint::StepLeft
+            } else {
+                Hint::StepRight
+            }
+        } else {
+            match g.along {
+                Along::Ahead => Hint::WalkAhead,
+                Along::Behind => Hint::WalkBack,
+                Along::Over if g.across == Across::Centred => Hint::HoldStill,
+                Along::Over | Along::Unsure if within_a && !settled => Hint::HoldStill,
+                Along::Over | Along::Unsure if !p.ambiguous_ahead && sa < 4.0 * tol => {
+                    g.sweep_m = sweep;
+                    Hint::SweepAlong
+                }
+                _ => Hint::WalkAlong,
+            }
         };
         if g.why.is_none() && (g.along == Along::Unsure || g.across == Across::Unsure) {
-            g.why = Some(if g.along == Along::Unsure { Withheld::NotOver } else { Withheld::LateralUnknown });
+            g.why = Some(if g.along == Along::Unsure {
+                if p.ambiguous_ahead {
+                    Withheld::Ambiguous
+                } else if within_a {
+                    Withheld::Moving
+                } else {
+                    Withheld::NeedsMotion
+                }
+            } else if p.ambiguous_left {
+                Withheld::Ambiguous
+            } else {
+                Withheld::LateralUnknown
+            });
         }
         g
     }
 
-    /// Step 7a: may a depth from the field at the head be shown here? The offsets if so.
+    /// Step 7a: may a depth be shown here? The receiver's offsets from the point
+    /// over the sonde (in depths, along the sonde axis and across it) if so.
     fn depth_gate(
         &self,
         signal: Signal,
         settling: bool,
         clipped: bool,
         distorted: bool,
-        placement: &Option<Placement>,
+        place: Option<&Place>,
         g: &Guidance,
     ) -> Result<Offsets, Withheld> {
         match signal {
@@ -577,20 +612,34 @@ impl<const N: usize> Locator<N> {
         if distorted {
             return Err(Withheld::Distorted);
         }
-        let Some(p) = placement else { return Err(Withheld::NeedsMotion) };
-        if !p.inside {
-            return Err(Withheld::SecondaryPeak);
-        }
-        if g.why == Some(Withheld::NotInLine) {
-            return Err(Withheld::NotInLine);
-        }
+        let Some(p) = place else { return Err(Withheld::NeedsMotion) };
         if g.along != Along::Over {
             return Err(Withheld::NotOver);
         }
         if g.across != Across::Centred {
             return Err(Withheld::LateralUnknown);
         }
-        Ok(p.offsets)
+
+        let h = p.depth_m.value.max(0.05);
+        // The receiver relative to the sonde (−ahead, −left), on the sonde axis (yaw ψ from the handle).
+        let (sy, cy) = (libm::sinf(p.yaw_rad.value), libm::cosf(p.yaw_rad.value));
+        let (a, l) = (p.ahead_m.value, p.left_m.value);
+        Ok(Offsets {
+            u: (-a * cy - l * sy) / h,
+            sigma_u: libm::hypotf(p.ahead_m.sigma * cy, p.left_m.sigma * sy) / h,
+            eta: (a * sy - l * cy) / h,
+            sigma_eta: libm::hypotf(p.ahead_m.sigma * sy, p.left_m.sigma * cy) / h,
+        })
+    }
+
+    /// Step 7b: the trail's depth, with a floor for the dipole model's own error.
+    fn trail_depth(&self, place: Option<&Place>) -> DepthEstimate {
+        let p = place.ok_or(Withheld::NeedsMotion)?;
+        if !p.depth_m.sigma.is_finite() {
+            return Err(Withheld::IllConditioned);
+        }
+        let d = crate::locate::depth::depth(p.depth_m.value, libm::hypotf(p.depth_m.sigma, MODEL_FLOOR * p.depth_m.value))?;
+        self.precise(d)
     }
 
     /// A rough depth from the coil ratio taken as if over the sonde (no gate), for scaling
@@ -692,17 +741,16 @@ pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
 
 /// Bearing of the field from the handle beyond which the receiver asks to turn in line, rad (15°).
 pub const TURN_BEARING_RAD: f32 = 0.262;
-/// Fastest along-axis motion at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
+/// Fastest motion of the head at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
 pub const MAX_OVER_SPEED_DEPTHS_PER_S: f32 = 0.1;
+/// Seconds to stand still near the point over the sonde before the receiver asks for a sweep.
+pub const SETTLE_S: f32 = 2.0;
+/// Relative error of the dipole model at the depths a receiver reads (the
+/// sonde's coil is not a point; within 1 % beyond three coil lengths, see the
+/// exact-loop table in the field module).
+pub const MODEL_FLOOR: f32 = 0.01;
 
-/// Where the receiver is relative to the point over the sonde.
-#[derive(Clone, Copy, Debug, PartialEq)]
-struct Placement {
-    ahead_m: Option<Distance>,
-    left_m: Option<Distance>,
-    inside: bool,
-    axis_rad: f32,
-    offsets: Offsets,
-    /// Rate of the along offset, depths per second (from the track).
-    u_rate_per_s: f32,
+/// The trail's settings from the locator's.
+fn trail_settings(s: &LocatorSettings) -> TrailSettings {
+    TrailSettings { gain_tolerance: s.gain_tolerance.max(1e-4), ..TrailSettings::default() }
 }

@@ -2,8 +2,9 @@
 //!
 //! * [`components`]: phasors → signed field per coil, bearing, quadrature residue.
 //! * [`orientation`]: in line (peak) or crossed (null), with hysteresis.
-//! * [`track`]: which side the sonde lies, from the change of the field as the receiver moves.
-//! * [`fit`]: the one-station dipole fit for heads with two triads.
+//! * [`trail`]: every station the head has passed lately, fitted together to one sonde.
+//! * [`fit`]: the one-station dipole fit and the dipole model's Jacobian.
+//! * [`small`]: fixed-size matrix helpers for the fits.
 //! * [`guidance`]: the directions shown, each known or "unsure" with the reason.
 //! * [`depth`]: depth estimators, each a depth with σ or the reason it is withheld.
 //! * [`calibration`]: coil gain and strength calibration, the pre-job check.
@@ -16,4 +17,5 @@ pub mod fit;
 pub mod guidance;
 pub mod locator;
 pub mod orientation;
-pub mod track;
+pub mod small;
+pub mod trail;
