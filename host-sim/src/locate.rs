@@ -3,25 +3,20 @@
 //!
 //! # The operator's procedure (what the receiver asks of its user)
 //! Each readout (20 per second) the operator reads the receiver's hint and:
-//! * after every move of a set distance, stands still 0.8 s and reads the screen again;
+//! * **a move of a set distance** (any hint that shows a distance to move:
+//!   walk ahead/back near the sonde, step left/right, a leg of a sweep): moves
+//!   that distance along the handle or sideways at 0.2 m/s keeping the heading,
+//!   stops, and stands 0.8 s reading the screen before doing anything else;
 //! * **wait**: stands still (the detector is settling, or there is no tone);
 //! * **turn in line**: turns on the spot toward the field (the way the bearing
-//!   points, 30°/s) until the bearing reads within 5° of the handle;
+//!   points, 30°/s) while the receiver asks for it;
 //! * **walk along** (the receiver cannot yet tell which side the sonde is):
 //!   walks forward along the handle at 0.3 m/s keeping the heading, and turns
 //!   back (walking backwards) after 3 m without an answer;
 //! * **walk the other way** (the field is getting weaker): reverses the way
 //!   it walks (once it has gone 0.5 m since the last reversal);
-//! * **walk ahead / walk back**: walks that way along the handle at 0.3 m/s,
-//!   keeping the heading; when the distance shown is under 0.6 m, walks just
-//!   that distance (at 0.2 m/s) and stops;
-//! * **sweep along** (the receiver needs to see the field change along):
-//!   walks the distance shown (0.3 m if none) forward, twice that back and
-//!   forward again to the start along the handle at 0.2 m/s, keeping the heading;
-//! * **sweep across** (over along the axis, the side unknown): the same
-//!   sideways (left first), keeping the heading;
-//! * **step left / step right**: steps sideways the distance shown (0.2 m if
-//!   none) at 0.2 m/s, keeping the heading;
+//! * **walk ahead / walk back** without a distance: walks that way along the
+//!   handle at 0.3 m/s, keeping the heading;
 //! * **hold still**: stands still and, once a depth has been shown for a second,
 //!   marks the spot and reads the depth. That ends the start.
 //!
@@ -46,25 +41,21 @@ use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
-use undertone_dsp::locate::guidance::{over_tolerance_m, Hint};
+use undertone_dsp::locate::guidance::{over_tolerance_m, Guidance, Hint};
 use undertone_dsp::{Head, Readout, Receiver};
 
 /// Longest a start may take, s.
-pub const MAX_TIME_S: f64 = 120.0;
+pub const MAX_TIME_S: f64 = 300.0;
 /// Walking speed, m/s.
 pub const WALK_M_S: f64 = 0.3;
 /// Speed of a move of a set distance (a step, a sweep), m/s.
 pub const STEP_M_S: f64 = 0.2;
-/// A distance shown shorter than this is walked as one move, then the operator stops, m.
-pub const NEAR_M: f64 = 0.6;
 /// The operator stands this long after each move before acting on the screen again, s.
 pub const PAUSE_S: f64 = 0.8;
 /// The operator counts the receiver as in line within this bearing, degrees.
 pub const ALIGNED_DEG: f64 = 5.0;
 /// Turning rate, rad/s (30°/s).
 pub const TURN_RAD_S: f64 = 0.5236;
-/// Half-length of a sweep along the handle, m.
-pub const SWEEP_M: f64 = 0.3;
 /// Time a depth must have been shown before the operator reads it, s.
 pub const READ_AFTER_S: f64 = 1.0;
 /// Least SNR of the best coil at a start, dB.
@@ -189,6 +180,8 @@ pub struct Diag {
     pub wrong_across: usize,
     /// Hints shown.
     pub hints: std::collections::BTreeMap<&'static str, usize>,
+    /// One CSV row per readout with a place.
+    pub rows: Vec<String>,
 }
 
 /// Development statistics.
@@ -214,6 +207,14 @@ pub fn print_diag() {
         d.wrong_across
     );
     eprintln!("diag hints: {:?}", d.hints);
+    if let Some(path) = std::env::var_os("UNDERTONE_DIAG_CSV") {
+        let mut text = String::from("start,t,snr,a,sa,at,l,sl,lt,st,h,sh,pitch,yaw,cons,moving,hint,amba,ambl\n");
+        for r in &d.rows {
+            text.push_str(r);
+            text.push('\n');
+        }
+        let _ = std::fs::write(path, text);
+    }
     let mut a = d.chi2_ok.clone();
     let mut b = d.chi2_bad.clone();
     eprintln!(
@@ -231,14 +232,11 @@ enum Act {
     Still { stood: f64 },
     /// Turning on the spot toward the field.
     Turn,
-    /// Walking along the handle: +1 forward, −1 back; distance walked this way;
-    /// distance still to go when walking a distance shown (then stopping).
-    Walk { dir: f64, walked: f64, to_go: Option<f64> },
-    /// A sweep along: distance still to go this leg, leg direction, legs left
-    /// (three legs: one way, twice as far back, and back to the start), half-length.
-    Sweep { left: f64, dir: f64, legs: u8, half: f64 },
-    /// Sideways steps: +1 left; distance still to go this leg, legs left, half-length.
-    Side { dir: f64, left: f64, legs: u8, half: f64 },
+    /// Walking along the handle: +1 forward, −1 back; distance walked this way.
+    Walk { dir: f64, walked: f64 },
+    /// A move of a set distance: along the handle (else sideways), +1 ahead or
+    /// left, distance still to go.
+    Move { along: bool, dir: f64, to_go: f64 },
 }
 
 impl Act {
@@ -269,6 +267,7 @@ fn one<const N: usize>(
     let mut pose = start;
     let mut t = 0.0f64;
     let mut act = Act::STILL;
+    let mut done = 0u16;
     let mut last: Option<Readout<N>> = None;
     let mut depth_since: Option<f64> = None;
     let mut path = vec![(pose.x_m, pose.y_m)];
@@ -317,9 +316,9 @@ fn one<const N: usize>(
             } else {
                 depth_since = None;
             }
-            act = decide(act, &r);
+            act = decide(act, &r.guidance, r.bearing_deg, &mut done);
             if let (Some(w), Some(p)) = (trace.as_mut(), r.place) {
-                if !p.consistent && std::env::var_os("UNDERTONE_STATIONS").is_some() {
+                if p.chi2 > 2.5 * p.dof.max(1) as f32 && std::env::var_os("UNDERTONE_STATIONS").is_some() {
                     let tr = rx.locator().trail();
                     for i in 0..tr.stations() {
                         if let Some(st) = tr.station(i) {
@@ -351,11 +350,11 @@ fn one<const N: usize>(
                     }
                     Some(p) => d.chi2_ok.push(p.chi2 as f64 / p.dof.max(1) as f64),
                 }
-                if let Some(a) = g.ahead {
+                if let Some(a) = g.ahead.filter(|_| !rx.locator().trail().moving()) {
                     let z = (a.value_m as f64 - tr.ahead_m) / a.sigma_m.max(1e-6) as f64;
                     d.ahead.push(z);
                 }
-                if let Some(l) = g.left {
+                if let Some(l) = g.left.filter(|_| !rx.locator().trail().moving()) {
                     let z = (l.value_m as f64 - tr.left_m) / l.sigma_m.max(1e-6) as f64;
                     d.left.push(z);
                 }
@@ -366,6 +365,28 @@ fn one<const N: usize>(
                 d.wrong_along += wrong_a as usize;
                 d.wrong_across += wrong_l as usize;
                 *d.hints.entry(g.hint.name()).or_insert(0) += 1;
+                if let Some(p) = r.place {
+                    d.rows.push(format!(
+                        "{index},{t:.2},{:.1},{:.3},{:.3},{:.3},{:.3},{:.3},{:.3},{},{:.3},{:.3},{:.1},{:.1},{},{},{},{},{}",
+                        r.snr_db,
+                        p.ahead_m.value,
+                        p.ahead_m.sigma,
+                        tr.ahead_m,
+                        p.left_m.value,
+                        p.left_m.sigma,
+                        tr.left_m,
+                        p.stations,
+                        p.depth_m.value,
+                        p.depth_m.sigma,
+                        p.pitch_rad.value.to_degrees(),
+                        p.yaw_rad.value.to_degrees(),
+                        p.consistent as u8,
+                        rx.locator().trail().moving() as u8,
+                        g.hint.name(),
+                        p.ambiguous_ahead as u8,
+                        p.ambiguous_left as u8
+                    ));
+                }
             }
             if let Some(w) = trace.as_mut() {
                 let tr = synth.truth_at(pose, t);
@@ -405,7 +426,7 @@ fn one<const N: usize>(
                 );
             }
         }
-        let next = step(pose, &mut act, last.as_ref(), dt);
+        let next = step(pose, &mut act, last.as_ref().map(|r| r.bearing_deg), dt);
         synth.fill_codes_posed(pose, next, &mut block);
         rx.push_codes_block(&block, |r| last = Some(r));
         pose = next;
@@ -418,23 +439,31 @@ fn one<const N: usize>(
     Ok(result(&synth, &pose, t, None, path, Some(format!("no depth read within {MAX_TIME_S:.0} s"))))
 }
 
-/// The operator's next act from the hint shown.
-fn decide<const N: usize>(act: Act, r: &Readout<N>) -> Act {
-    let g = &r.guidance;
-    let aligned = (r.bearing_deg as f64).abs() <= ALIGNED_DEG;
-    // Moves of a set distance are finished first; a turn goes on until in line.
+/// The operator's next act from the hint shown; `done` is the last move made.
+fn decide(act: Act, g: &Guidance, bearing_deg: f32, done: &mut u16) -> Act {
+    let aligned = (bearing_deg as f64).abs() <= ALIGNED_DEG;
+    let new_move = g.move_m.is_some() && g.move_id != *done;
     match act {
-        Act::Walk { to_go: Some(_), .. } | Act::Sweep { .. } | Act::Side { .. } if g.hint != Hint::Wait => return act,
+        // A move of a set distance is finished first; a turn goes on while asked for.
+        Act::Move { .. } => return act,
         Act::Turn if !aligned && g.hint == Hint::TurnInLine => return act,
-        // After each move the operator stands a moment and reads the screen.
-        Act::Still { stood } if stood < PAUSE_S && g.hint != Hint::Wait => return act,
+        // After each move the operator stands a moment and reads the screen (a new
+        // move shown is made at once).
+        Act::Still { stood } if stood < PAUSE_S && g.hint != Hint::Wait && !new_move => return act,
         _ => {}
     }
     let still = match act {
         Act::Still { .. } => act,
         _ => Act::STILL,
     };
-    let shown = |d: Option<undertone_dsp::locate::guidance::Distance>| d.map(|d| (d.value_m as f64).abs());
+    if let Some(m) = g.move_m {
+        if g.move_id == *done {
+            return still;
+        }
+        *done = g.move_id;
+        let along = matches!(g.hint, Hint::WalkAhead | Hint::WalkBack | Hint::SweepAlong | Hint::WalkAlong | Hint::WalkOtherWay);
+        return Act::Move { along, dir: (m as f64).signum(), to_go: (m as f64).abs().min(5.0) };
+    }
     match g.hint {
         Hint::Wait | Hint::HoldStill => still,
         Hint::TurnInLine => {
@@ -446,111 +475,202 @@ fn decide<const N: usize>(act: Act, r: &Readout<N>) -> Act {
         }
         Hint::WalkAhead | Hint::WalkBack => {
             let dir = if g.hint == Hint::WalkAhead { 1.0 } else { -1.0 };
-            match shown(g.ahead) {
-                Some(d) if d < NEAR_M => Act::Walk { dir, walked: 0.0, to_go: Some(d) },
-                _ => Act::Walk { dir, walked: keep_walked(act, dir), to_go: None },
-            }
+            Act::Walk { dir, walked: keep_walked(act, dir) }
         }
         Hint::WalkOtherWay => match act {
-            Act::Walk { dir, walked, .. } if walked > 0.5 => Act::Walk { dir: -dir, walked: 0.0, to_go: None },
+            Act::Walk { dir, walked } if walked > 0.5 => Act::Walk { dir: -dir, walked: 0.0 },
             Act::Walk { .. } => act,
-            _ => Act::Walk { dir: -1.0, walked: 0.0, to_go: None },
+            _ => Act::Walk { dir: -1.0, walked: 0.0 },
         },
-        Hint::WalkAlong => match act {
-            // Keep walking the way chosen; after 3 m without an answer, turn back.
-            Act::Walk { dir, walked, to_go: None } if walked < 3.0 => act.with(dir, walked),
-            Act::Walk { dir, .. } => Act::Walk { dir: -dir, walked: 0.0, to_go: None },
-            _ => Act::Walk { dir: 1.0, walked: 0.0, to_go: None },
+        // Keep walking the way chosen; after 3 m without an answer, turn back.
+        Hint::WalkAlong | Hint::SweepAlong | Hint::SweepAcross | Hint::StepLeft | Hint::StepRight => match act {
+            Act::Walk { walked, .. } if walked < 3.0 => act,
+            Act::Walk { dir, .. } => Act::Walk { dir: -dir, walked: 0.0 },
+            _ => Act::Walk { dir: 1.0, walked: 0.0 },
         },
-        Hint::SweepAlong => {
-            let half = sweep(g.sweep_m);
-            Act::Sweep { left: half, dir: 1.0, legs: 3, half }
-        }
-        Hint::SweepAcross => {
-            let half = sweep(g.sweep_m);
-            Act::Side { dir: 1.0, left: half, legs: 3, half }
-        }
-        Hint::StepLeft | Hint::StepRight => {
-            let dist = shown(g.left).unwrap_or(0.2).clamp(0.05, 3.0);
-            Act::Side { dir: if g.hint == Hint::StepLeft { 1.0 } else { -1.0 }, left: dist, legs: 1, half: dist }
-        }
-    }
-}
-
-impl Act {
-    fn with(self, dir: f64, walked: f64) -> Act {
-        Act::Walk { dir, walked, to_go: None }
-    }
-}
-
-/// The sweep's half-length: as shown, else the default.
-fn sweep(shown_m: f32) -> f64 {
-    if shown_m > 0.0 {
-        (shown_m as f64).clamp(0.1, 2.0)
-    } else {
-        SWEEP_M
     }
 }
 
 fn keep_walked(act: Act, dir: f64) -> f64 {
     match act {
-        Act::Walk { dir: d, walked, .. } if d == dir => walked,
+        Act::Walk { dir: d, walked } if d == dir => walked,
         _ => 0.0,
     }
 }
 
 /// The pose after `dt` of the act (and the act's own progress).
-fn step<const N: usize>(pose: Pose, act: &mut Act, r: Option<&Readout<N>>, dt: f64) -> Pose {
+fn step(pose: Pose, act: &mut Act, bearing_deg: Option<f32>, dt: f64) -> Pose {
     let (s, c) = pose.heading_rad.sin_cos();
     let along = |p: Pose, d: f64| Pose { x_m: p.x_m + c * d, y_m: p.y_m + s * d, ..p };
     let side = |p: Pose, d: f64| Pose { x_m: p.x_m - s * d, y_m: p.y_m + c * d, ..p };
-    let leg = |legs: u8, half: f64| if legs == 3 { 2.0 * half } else { half };
     match act {
         Act::Still { stood } => {
             *stood += dt;
             pose
         }
         Act::Turn => {
-            let bearing = r.map(|r| r.bearing_deg as f64).unwrap_or(0.0).to_radians();
+            let bearing = bearing_deg.map(|b| b as f64).unwrap_or(0.0).to_radians();
             let turn = bearing.signum() * (TURN_RAD_S * dt).min(bearing.abs());
             Pose { heading_rad: pose.heading_rad + turn, ..pose }
         }
-        Act::Walk { dir, walked, to_go } => {
-            let (d, done) = match to_go {
-                Some(g) => {
-                    let d = (STEP_M_S * dt).min(*g);
-                    *g -= d;
-                    (d, *g <= 1e-9)
-                }
-                None => (WALK_M_S * dt, false),
-            };
+        Act::Walk { dir, walked } => {
+            let d = WALK_M_S * dt;
             *walked += d;
-            let p = along(pose, *dir * d);
-            if done {
+            along(pose, *dir * d)
+        }
+        Act::Move { along: a, dir, to_go } => {
+            let d = (STEP_M_S * dt).min(*to_go);
+            *to_go -= d;
+            let p = if *a { along(pose, *dir * d) } else { side(pose, *dir * d) };
+            if *to_go <= 1e-9 {
                 *act = Act::STILL;
             }
             p
         }
-        Act::Sweep { left, dir, legs, half } => {
-            let d = (STEP_M_S * dt).min(*left);
-            *left -= d;
-            let p = along(pose, *dir * d);
-            if *left <= 1e-9 {
-                *act =
-                    if *legs > 1 { Act::Sweep { left: leg(*legs, *half), dir: -*dir, legs: *legs - 1, half: *half } } else { Act::STILL };
-            }
-            p
-        }
-        Act::Side { dir, left, legs, half } => {
-            let d = (STEP_M_S * dt).min(*left);
-            *left -= d;
-            let p = side(pose, *dir * d);
-            if *left <= 1e-9 {
-                *act = if *legs > 1 { Act::Side { left: leg(*legs, *half), dir: -*dir, legs: *legs - 1, half: *half } } else { Act::STILL };
-            }
-            p
-        }
     }
+}
+
+/// Development experiment (UNDERTONE_IDEAL): the locator alone on exact dipole
+/// readings with white noise, the same operator; returns (located, z-scores).
+pub fn ideal(sc: &Scenario, index: usize, seed: u64, range: f64, sigma_t: f64) -> Result<(bool, Vec<(f64, f64)>)> {
+    use undertone_dsp::locate::locator::{Locator, Timing};
+    use undertone_dsp::phasor::C32;
+    let mut rng = ChaCha8Rng::seed_from_u64(seed.wrapping_mul(0x9E37_79B9_7F4A_7C15).wrapping_add(index as u64));
+    let start = start_pose(sc, &mut rng, range)?;
+    let synth = Synth::new(sc, Some(seed));
+    let head = Head::reference4();
+    let settings = receiver_settings(sc, head, None);
+    let mut loc = Locator::new(settings.locator, head).map_err(|err| SimError::Config { context: "ideal".into(), err })?;
+    let dt = 0.05;
+    let (mut pose, mut t, mut act, mut done) = (start, 0.0f64, Act::STILL, 0u16);
+    let k = 1e-7 * sc.sonde.moment_am2;
+    let pitch = sc.sonde.pitch_deg.to_radians();
+    let normal = rand_distr::Normal::new(0.0, sigma_t).unwrap();
+    let mut zs = Vec::new();
+    let mut depth_since: Option<f64> = None;
+    // Optional detector dynamics: a 4-pole smoother (τ per pole) on field and noise at 10× the readout rate.
+    let tau: f64 = std::env::var("UNDERTONE_IDEAL_TAU").ok().and_then(|v| v.parse().ok()).unwrap_or(0.0);
+    let sub = 10;
+    let a = if tau > 0.0 { (-(dt / sub as f64) / tau).exp() } else { 0.0 };
+    // Input noise scaled so the smoothed output has σ: a 4-pole smoother's noise gain.
+    let gain2: f64 = {
+        let mut h = vec![0.0f64; 4000];
+        h[0] = 1.0;
+        for _ in 0..4 {
+            let mut y = 0.0;
+            for v in h.iter_mut() {
+                y = a * y + (1.0 - a) * *v;
+                *v = y;
+            }
+        }
+        h.iter().map(|v| v * v).sum()
+    };
+    let in_normal = rand_distr::Normal::new(0.0, sigma_t / gain2.sqrt()).unwrap();
+    let mut state = [[[0.0f64; 2]; 4]; 4];
+    let mut prev = pose;
+    while t < MAX_TIME_S {
+        let tr = synth.truth_at(pose, t);
+        let mut ph = [C32::new(0.0, 0.0); 4];
+        if tau > 0.0 {
+            for j in 1..=sub {
+                let f = j as f64 / sub as f64;
+                let dh =
+                    (pose.heading_rad - prev.heading_rad + std::f64::consts::PI).rem_euclid(std::f64::consts::TAU) - std::f64::consts::PI;
+                let pj = Pose {
+                    x_m: prev.x_m + (pose.x_m - prev.x_m) * f,
+                    y_m: prev.y_m + (pose.y_m - prev.y_m) * f,
+                    heading_rad: prev.heading_rad + dh * f,
+                };
+                let trj = synth.truth_at(pj, t);
+                let yaw = sc.sonde.yaw_deg.to_radians() - pj.heading_rad;
+                let th = [trj.ahead_m as f32, trj.left_m as f32, trj.depth_m as f32, yaw as f32, pitch as f32, k as f32];
+                let m = undertone_dsp::locate::fit::model(&head, &th);
+                let mode = std::env::var("UNDERTONE_IDEAL_MODE").unwrap_or_default();
+                for c in 0..4 {
+                    let sig = if mode == "noise" { 0.0 } else { m[c] as f64 };
+                    let (n1, n2) = if mode == "signal" { (0.0, 0.0) } else { (rng.sample(in_normal), rng.sample(in_normal)) };
+                    let mut x = [sig + n1, n2];
+                    for st in state[c].iter_mut() {
+                        for q in 0..2 {
+                            st[q] = a * st[q] + (1.0 - a) * x[q];
+                            x[q] = st[q];
+                        }
+                    }
+                    if j == sub {
+                        let (extra_s, extra_n) = match mode.as_str() {
+                            "noise" => (m[c] as f64, 0.0),
+                            "signal" => (0.0, rng.sample(normal)),
+                            _ => (0.0, 0.0),
+                        };
+                        ph[c] = C32::new(
+                            (state[c][3][0] + extra_s + extra_n) as f32,
+                            (state[c][3][1] + if mode == "signal" { rng.sample(normal) } else { 0.0 }) as f32,
+                        );
+                    }
+                }
+            }
+        } else {
+            let yaw = sc.sonde.yaw_deg.to_radians() - pose.heading_rad;
+            let th = [tr.ahead_m as f32, tr.left_m as f32, tr.depth_m as f32, yaw as f32, pitch as f32, k as f32];
+            let m = undertone_dsp::locate::fit::model(&head, &th);
+            for c in 0..4 {
+                ph[c] = C32::new(m[c] + rng.sample(normal) as f32, rng.sample(normal) as f32);
+            }
+        }
+        prev = pose;
+        let (corr, gd) = if tau > 0.0 { (8.0 * tau as f32, 4.0 * tau as f32) } else { (0.05, 0.0) };
+        let l = loc.locate(
+            &ph,
+            &[sigma_t as f32; 4],
+            undertone_dsp::Flags::NONE,
+            Timing { t_s: t - gd as f64, noise_corr_s: corr, group_delay_s: gd },
+        );
+        let g = l.guidance;
+        if let (Some(a), Some(b), false) = (g.ahead, g.left, loc.trail().moving()) {
+            zs.push(((a.value_m as f64 - tr.ahead_m) / a.sigma_m as f64, (b.value_m as f64 - tr.left_m) / b.sigma_m as f64));
+        }
+        if let Some(d) = l.depth.filter(|_| g.hint == Hint::HoldStill) {
+            let since = *depth_since.get_or_insert(t);
+            if t - since >= READ_AFTER_S {
+                let ok = tr.range_m <= over_tolerance_m(tr.depth_m as f32) as f64
+                    && (d.depth.depth_m as f64 - tr.depth_m).abs() <= 0.05 * tr.depth_m;
+                return Ok((ok, zs));
+            }
+        } else {
+            depth_since = None;
+        }
+        if std::env::var("UNDERTONE_IDEAL_TRACE").ok().and_then(|v| v.parse::<usize>().ok()) == Some(index)
+            && (t * 20.0).round() as i64 % 5 == 0
+        {
+            let f = |d: Option<undertone_dsp::locate::guidance::Distance>| {
+                d.map(|d| format!("{:+.2}±{:.2}", d.value_m, d.sigma_m)).unwrap_or_else(|| "--".into())
+            };
+            eprintln!(
+                "{t:6.2} hd {:5.0} bear {:6.1} {:7} {:7} {:12} mv {:?} ahead {:>11} ({:+.2}) left {:>11} ({:+.2}) st {} h {:.2} yaw {:.0} sp {:.2} moving {} | {act:?}",
+                pose.heading_rad.to_degrees(),
+                l.field.bearing_rad.to_degrees(),
+                g.along.name(),
+                g.across.name(),
+                g.hint.name(),
+                g.move_m,
+                f(g.ahead),
+                tr.ahead_m,
+                f(g.left),
+                tr.left_m,
+                l.place.map(|p| p.stations).unwrap_or(0),
+                l.place.map(|p| p.depth_m.value).unwrap_or(0.0),
+                l.place.map(|p| p.yaw_rad.value.to_degrees()).unwrap_or(0.0),
+                l.place.map(|p| p.speed_m_s).unwrap_or(0.0),
+                loc.trail().moving()
+            );
+        }
+        act = decide(act, &g, l.field.bearing_rad.to_degrees(), &mut done);
+        pose = step(pose, &mut act, Some(l.field.bearing_rad.to_degrees()), dt);
+        t += dt;
+    }
+    let tr = synth.truth_at(pose, t);
+    eprintln!("ideal fail start {index}: from ({:.2}, {:.2}) now ahead {:.2} left {:.2}", start.x_m, start.y_m, tr.ahead_m, tr.left_m);
+    Ok((false, zs))
 }
 
 /// Print the readouts of one start as the operator saw them.
@@ -572,6 +692,20 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
     pb.set_style(
         ProgressStyle::with_template("{bar:40} {pos}/{len} starts {elapsed_precise}").unwrap_or_else(|_| ProgressStyle::default_bar()),
     );
+    if let Some(v) = std::env::var_os("UNDERTONE_IDEAL") {
+        let sigma: f64 = v.to_string_lossy().parse().unwrap_or(3e-12);
+        let range = detection_range_m(sc)?;
+        let mut ok = 0;
+        let mut all = Vec::new();
+        for i in 0..starts {
+            let (l, z) = ideal(sc, i, seed, range, sigma)?;
+            ok += l as usize;
+            all.extend(z);
+        }
+        let f = |k: f64, a: bool| all.iter().filter(|z| (if a { z.0 } else { z.1 }).abs() <= k).count() as f64 / all.len().max(1) as f64;
+        eprintln!("ideal: located {ok}/{starts}; ahead within 2σ {:.3}, left {:.3} (n {})", f(2.0, true), f(2.0, false), all.len());
+        return Ok(());
+    }
     let results = run(sc, starts, seed, &|| pb.inc(1))?;
     pb.finish_and_clear();
     if std::env::var_os("UNDERTONE_DIAG").is_some() {

@@ -84,12 +84,10 @@ pub enum Hint {
     StepLeft,
     /// Step to the right, keeping the heading.
     StepRight,
-    /// The receiver needs to see the field change: walk the distance shown
-    /// ([`Guidance::sweep_m`]) forward along the handle, twice that back, and
-    /// forward to the start, keeping the heading.
+    /// One leg of a sweep along the handle (the receiver needs to see the field
+    /// change): walk the distance shown ([`Guidance::move_m`]), keeping the heading, and stop.
     SweepAlong,
-    /// The same sideways: step the distance shown to the left, twice that to
-    /// the right, and back, keeping the heading.
+    /// One leg of a sweep across: step the distance shown sideways, keeping the heading, and stop.
     SweepAcross,
     /// Over the sonde: hold still and read the depth.
     HoldStill,
@@ -143,8 +141,12 @@ pub struct Guidance {
     /// Vertical over horizontal field at the lower coils, `Bz/|Bh|` (sign: the
     /// horizontal field taken facing forward).
     pub vertical_ratio: f32,
-    /// How far each way to sweep when the hint is a sweep, m (0 otherwise).
-    pub sweep_m: f32,
+    /// The move asked for, when the hint is a move of a set distance: metres
+    /// along the hint's own axis (ahead for walks and sweeps along, left for
+    /// steps and sweeps across; negative: back or right). Walk it, then stop.
+    pub move_m: Option<f32>,
+    /// Changes with every new move asked for (so a move is made once).
+    pub move_id: u16,
 }
 
 impl Guidance {
@@ -158,7 +160,8 @@ impl Guidance {
             why: Some(why),
             hint,
             vertical_ratio: 0.0,
-            sweep_m: 0.0,
+            move_m: None,
+            move_id: 0,
         }
     }
 

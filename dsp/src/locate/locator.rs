@@ -32,7 +32,7 @@ use crate::locate::depth::{gradient_depth, known_moment_depth, solve_g, CoilPair
 use crate::locate::fit::{fit_from, Fix, LateralPrior, P};
 use crate::locate::guidance::{over_tolerance_m, Across, Along, Distance, Guidance, Hint};
 use crate::locate::orientation::{Hysteresis, Orientation};
-use crate::locate::trail::{Motion, Place, Reading, Trail, TrailSettings};
+use crate::locate::trail::{Motion, MoveRequest, Place, Reading, Trail, TrailSettings};
 use crate::phasor::C32;
 
 /// Is there a beacon tone to locate?
@@ -219,6 +219,13 @@ pub struct Locator<const N: usize> {
     state: Orientation,
     trail: Trail<N>,
     last_hint: Hint,
+    /// The move of a set distance being asked for, and its hint.
+    request: Option<MoveRequest>,
+    request_hint: Hint,
+    /// Legs of a sweep still to ask for (distance along the sweep's axis, m; 0: none).
+    sweep_legs: [f32; 2],
+    sweep_hint: Hint,
+    move_id: u16,
     /// Seconds the head has been still (by the trail's speed), 0 while moving.
     still_for_s: f32,
     last_t_s: f64,
@@ -254,6 +261,11 @@ impl<const N: usize> Locator<N> {
             state: Orientation::Unknown,
             trail: Trail::new(&head, trail_settings(&settings)),
             last_hint: Hint::Wait,
+            request: None,
+            request_hint: Hint::Wait,
+            sweep_legs: [0.0; 2],
+            sweep_hint: Hint::Wait,
+            move_id: 0,
             still_for_s: 0.0,
             last_t_s: 0.0,
             last_fix: None,
@@ -286,6 +298,8 @@ impl<const N: usize> Locator<N> {
     /// Forget what was learnt from earlier readouts (after a converter restart or a settings change).
     pub fn forget(&mut self) {
         self.trail.clear();
+        self.request = None;
+        self.sweep_legs = [0.0; 2];
         self.last_fix = None;
         self.held_fix = None;
         self.last_depth_m = None;
@@ -347,6 +361,7 @@ impl<const N: usize> Locator<N> {
                 motion,
                 noise_corr_s: timing.noise_corr_s,
                 group_delay_s: timing.group_delay_s,
+                request: self.request,
             })
         } else {
             if !present {
@@ -386,6 +401,7 @@ impl<const N: usize> Locator<N> {
             self.directions(place.as_ref(), h_hint, clipped, distorted, out_of_line)
         };
         guidance.vertical_ratio = field.vertical_ratio();
+        self.moves(&mut guidance, place.as_ref(), present && !settling);
         self.last_hint = guidance.hint;
         // 7. Depths.
         let gate = self.depth_gate(signal, settling, clipped, distorted, place.as_ref(), &guidance);
@@ -477,6 +493,68 @@ impl<const N: usize> Locator<N> {
         h
     }
 
+    /// Step 6b: moves of a set distance. While one is under way the hint stays; when it
+    /// is done the next leg of a sweep is asked for, or a new move from the directions:
+    /// near the sonde every step is a move of the distance shown (walk it and stop), so
+    /// the trail knows how far the head went.
+    fn moves(&mut self, g: &mut Guidance, place: Option<&Place>, present: bool) {
+        if !present {
+            self.request = None;
+            self.sweep_legs = [0.0; 2];
+            return;
+        }
+        if let Some(r) = self.request.filter(|_| self.trail.moving()) {
+            g.hint = self.request_hint;
+            g.move_m = Some(if matches!(g.hint, Hint::StepLeft | Hint::StepRight | Hint::SweepAcross) { r.left_m } else { r.ahead_m });
+            g.move_id = r.id;
+            return;
+        }
+        self.request = None;
+        let leg = self.sweep_legs[0];
+        let (hint, dist) = if leg != 0.0 && g.hint != Hint::HoldStill {
+            self.sweep_legs = [self.sweep_legs[1], 0.0];
+            (self.sweep_hint, leg)
+        } else {
+            self.sweep_legs = [0.0; 2];
+            let unknown = crate::locate::fit::Estimate { value: 0.0, sigma: f32::INFINITY };
+            let (a, l) = place.map(|p| (p.ahead_m, p.left_m)).unwrap_or((unknown, unknown));
+            // Every move is of a set distance: the distance shown where it is known to a
+            // third, else a short exploring move; at most MAX_MOVE_M at a time.
+            let known = |e: crate::locate::fit::Estimate| e.sigma < 0.3 * libm::fabsf(e.value) + 0.05;
+            let dist = |e: crate::locate::fit::Estimate| {
+                if known(e) {
+                    e.value.clamp(-MAX_MOVE_M, MAX_MOVE_M)
+                } else if e.value < 0.0 {
+                    -EXPLORE_M
+                } else {
+                    EXPLORE_M
+                }
+            };
+            match (g.hint, g.move_m) {
+                (Hint::SweepAlong | Hint::SweepAcross, Some(s)) => {
+                    self.sweep_legs = [-2.0 * s, s];
+                    self.sweep_hint = g.hint;
+                    (g.hint, s)
+                }
+                (Hint::StepLeft | Hint::StepRight, _) => (g.hint, dist(l)),
+                (Hint::WalkAhead | Hint::WalkBack, _) => (g.hint, dist(a)),
+                (Hint::WalkAlong | Hint::WalkOtherWay, _) => (Hint::WalkAlong, EXPLORE_M),
+                _ => {
+                    g.move_m = None;
+                    return;
+                }
+            }
+        };
+        self.move_id = self.move_id.wrapping_add(1);
+        let across = matches!(hint, Hint::StepLeft | Hint::StepRight | Hint::SweepAcross);
+        let r = MoveRequest { id: self.move_id, ahead_m: if across { 0.0 } else { dist }, left_m: if across { dist } else { 0.0 } };
+        self.request = Some(r);
+        self.request_hint = hint;
+        g.hint = hint;
+        g.move_m = Some(dist);
+        g.move_id = r.id;
+    }
+
     /// Step 6: the directions and the hint.
     fn directions(&self, place: Option<&Place>, h_hint: Option<f32>, clipped: bool, distorted: bool, out_of_line: bool) -> Guidance {
         let Some(p) = place else {
@@ -496,7 +574,8 @@ impl<const N: usize> Locator<N> {
             why: None,
             hint: Hint::WalkAlong,
             vertical_ratio: 0.0,
-            sweep_m: 0.0,
+            move_m: None,
+            move_id: 0,
         };
         if distorted {
             g.ahead = None;
@@ -550,20 +629,47 @@ impl<const N: usize> Locator<N> {
         let side_known = g.across == Across::Left || g.across == Across::Right;
         let settled = self.still_for_s >= SETTLE_S;
         let sweep = (0.5 * h).clamp(0.3, 1.0);
-        g.hint = if side_known && sl < 0.5 * libm::fabsf(l) {
-            if l > 0.0 {
-                Hint::StepLeft
+        // Near the sonde the field runs along its axis: a handle far out of line with it
+        // turns "ahead" into "across the axis", where the field changes least. Turn first.
+        let near = libm::hypotf(a, l) < (0.7 * h).max(0.5);
+        let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3;
+        let along_known = g.along == Along::Ahead || g.along == Along::Behind;
+        let walk = if a > 0.0 { Hint::WalkAhead } else { Hint::WalkBack };
+        let step = if l > 0.0 { Hint::StepLeft } else { Hint::StepRight };
+        let far = libm::hypotf(a, l) > (1.5 * h).max(1.0);
+        // A fit on a short baseline can be confidently wrong (near and weak against far and
+        // strong): until the head has moved a fair way, explore along the field.
+        let established = p.stations >= MIN_STATIONS && p.span_m >= (0.3 * h).max(0.5);
+        g.hint = if !established {
+            if out_of_line {
+                Hint::TurnInLine
             } else {
-                Hint::StepRight
+                Hint::WalkAlong
             }
+        } else if near && crossed && !(g.along == Along::Over && g.across == Across::Centred) {
+            Hint::TurnInLine
+        } else if far {
+            // Far off: go the longer way first, walking or stepping.
+            match (along_known, side_known) {
+                (true, true) if libm::fabsf(l) > libm::fabsf(a) => step,
+                (true, _) => walk,
+                (false, true) => step,
+                (false, false) => Hint::WalkAlong,
+            }
+        } else if side_known && libm::fabsf(l) > tol && sl < 0.5 * libm::fabsf(l) {
+            step
         } else {
             match g.along {
-                Along::Ahead => Hint::WalkAhead,
-                Along::Behind => Hint::WalkBack,
+                Along::Ahead | Along::Behind => walk,
                 Along::Over if g.across == Across::Centred => Hint::HoldStill,
                 Along::Over | Along::Unsure if within_a && !settled => Hint::HoldStill,
+                // Placed along, not across: the strength across the axis peaks over it.
+                Along::Over | Along::Unsure if within_a => {
+                    g.move_m = Some(sweep);
+                    Hint::SweepAcross
+                }
                 Along::Over | Along::Unsure if !p.ambiguous_ahead && sa < 4.0 * tol => {
-                    g.sweep_m = sweep;
+                    g.move_m = Some(sweep);
                     Hint::SweepAlong
                 }
                 _ => Hint::WalkAlong,
@@ -743,6 +849,16 @@ pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
 pub const TURN_BEARING_RAD: f32 = 0.262;
 /// Fastest motion of the head at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
 pub const MAX_OVER_SPEED_DEPTHS_PER_S: f32 = 0.1;
+/// Stations a fit needs before its directions are acted on.
+pub const MIN_STATIONS: u8 = 8;
+/// Near the sonde the handle is turned in line with its axis when they are further apart than this, rad (30°).
+pub const NEAR_TURN_RAD: f32 = 0.524;
+/// Within this distance (or half a depth) of the point over the sonde, walks are moves of a set distance, m.
+pub const NEAR_MOVE_M: f32 = 0.6;
+/// An exploring move (the way is not known yet), m.
+pub const EXPLORE_M: f32 = 0.5;
+/// Longest move of a set distance asked for, m.
+pub const MAX_MOVE_M: f32 = 2.0;
 /// Seconds to stand still near the point over the sonde before the receiver asks for a sweep.
 pub const SETTLE_S: f32 = 2.0;
 /// Relative error of the dipole model at the depths a receiver reads (the

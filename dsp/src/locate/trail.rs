@@ -81,7 +81,7 @@ const IK: usize = 2;
 const IG: usize = 3;
 
 /// What the receiver asked of the person while a station was recorded.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Motion {
     /// Walk along the handle, keeping the heading.
@@ -94,6 +94,40 @@ pub enum Motion {
     Turn,
     /// Anything: the person did not do as asked (or was not asked anything).
     Free,
+    /// A move of a set distance, asked for and done (the head stopped after it):
+    /// ahead and to the left in the head's frame, m.
+    Moved {
+        /// Distance ahead, m.
+        ahead_m: f32,
+        /// Distance to the left, m.
+        left_m: f32,
+    },
+}
+
+/// A move of a set distance the receiver asks for: the person moves, stops, and
+/// the station after it is tied to the one before by that distance.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct MoveRequest {
+    /// Changes with every new request.
+    pub id: u16,
+    /// Distance ahead (negative: back), m.
+    pub ahead_m: f32,
+    /// Distance to the left (negative: right), m.
+    pub left_m: f32,
+}
+
+/// A move being made.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct Pending<const N: usize> {
+    req: MoveRequest,
+    /// First station recorded during the move (the one before it is the anchor); 0 when
+    /// the anchor has left the window.
+    first: usize,
+    start_t: f32,
+    changed: bool,
+    steady_since: Option<f32>,
+    last: [f32; N],
 }
 
 /// Settings of the trail.
@@ -131,7 +165,7 @@ impl Default for TrailSettings {
             step_sigma_m: 0.3,
             drift_sigma_m: 0.01,
             heading_sigma_rad: 0.035,
-            pitch_prior_rad: 0.7,
+            pitch_prior_rad: 0.35,
             gain_tolerance: 0.01,
             relative_floor: 0.001,
             moving_floor: 0.005,
@@ -155,6 +189,8 @@ pub struct Reading<const N: usize> {
     pub noise_corr_s: f32,
     /// Delay from the data's centre to the readout, s.
     pub group_delay_s: f32,
+    /// A move of a set distance the receiver is asking for, if any.
+    pub request: Option<MoveRequest>,
 }
 
 /// Where the trail puts the sonde now, in the head's frame.
@@ -187,6 +223,9 @@ pub struct Place {
     pub runner_up_chi2: f32,
     /// Speed of the head over the last stations, m/s.
     pub speed_m_s: f32,
+    /// How far the head has moved over the stations in the fit (the largest
+    /// distance of any station from the last), m: the baseline the fit stands on.
+    pub span_m: f32,
     /// The fit explains the readings (χ² within [`CONSISTENT_SIGMAS`] of its
     /// degrees of freedom) and ended inside the depth bounds.
     pub consistent: bool,
@@ -219,6 +258,8 @@ struct Station<const N: usize> {
     t0: f32,
     t1: f32,
     corr_s: f32,
+    /// Readout interval, s.
+    dt_s: f32,
     motion: Motion,
 }
 
@@ -231,7 +272,11 @@ impl<const N: usize> Station<N> {
     fn sigma(&self, floor: f32) -> [f32; N] {
         let m = self.mean();
         let total2: f32 = m.iter().map(|v| v * v).sum();
-        let n_eff = 1.0 + (self.t1 - self.t0).max(0.0) / self.corr_s.max(1e-3);
+        // Successive readouts share their noise over the correlation time τ: a station
+        // spanning T (plus one readout interval) carries (T + Δt)/τ independent readouts'
+        // worth — fewer than one for a short station (its σ is raised so that neighbours
+        // sharing noise are not counted twice), many for a long still one.
+        let n_eff = (self.t1 - self.t0 + self.dt_s).max(1e-3) / self.corr_s.max(1e-3);
         let k = 1.0 / self.n.max(1) as f32;
         let mut out = [0.0; N];
         for c in 0..N {
@@ -283,7 +328,9 @@ pub struct Trail<const N: usize> {
     hyp: [Hyp; HYPOTHESES],
     next_seed: u8,
     last_t: f32,
-    turned_at: Option<f32>,
+    last_dt_s: f32,
+    turn_until: f32,
+    pending: Option<Pending<N>>,
 }
 
 /// Per-station measurement terms: whitened residuals and Jacobians.
@@ -306,7 +353,7 @@ impl<const N: usize> Trail<N> {
                 upper[*i as usize] = true;
             }
         }
-        let empty = Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, motion: Motion::Hold };
+        let empty = Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, dt_s: 0.05, motion: Motion::Hold };
         Self {
             head: h,
             upper,
@@ -316,7 +363,9 @@ impl<const N: usize> Trail<N> {
             hyp: [Hyp::DEAD; HYPOTHESES],
             next_seed: 0,
             last_t: f32::NEG_INFINITY,
-            turned_at: None,
+            last_dt_s: 0.0,
+            turn_until: f32::NEG_INFINITY,
+            pending: None,
         }
     }
 
@@ -325,7 +374,12 @@ impl<const N: usize> Trail<N> {
         self.len = 0;
         self.hyp = [Hyp::DEAD; HYPOTHESES];
         self.last_t = f32::NEG_INFINITY;
-        self.turned_at = None;
+        self.pending = None;
+    }
+
+    /// A move asked for is under way (the readouts wait for the head to stop).
+    pub fn moving(&self) -> bool {
+        self.pending.is_some()
     }
 
     /// Stations held.
@@ -363,22 +417,72 @@ impl<const N: usize> Trail<N> {
         if rd.t_s - self.last_t > self.settings.max_gap_s || rd.t_s < self.last_t {
             self.clear();
         }
+        if self.last_t.is_finite() && rd.t_s > self.last_t {
+            self.last_dt_s = rd.t_s - self.last_t;
+        }
         self.last_t = rd.t_s;
-        // While the head turns, the detector's output is a blend of headings: the
-        // readouts are left out until it has settled; the next station is linked to
-        // the last one as a turn on the spot.
-        if rd.motion == Motion::Turn {
-            self.turned_at = Some(rd.t_s);
-            return self.place(rd.t_s, rd.group_delay_s);
-        }
-        if let Some(t) = self.turned_at {
-            if rd.t_s - t < 2.0 * rd.group_delay_s + 0.1 {
-                return self.place(rd.t_s, rd.group_delay_s);
+        // A move of a set distance: wait for the head to stop after it, then tie the
+        // station there to the one before by the distance asked for.
+        let mut forced: Option<Motion> = None;
+        match (rd.request, self.pending) {
+            (Some(req), p) if p.map(|p| p.req.id != req.id).unwrap_or(true) && self.len > 0 => {
+                // Readouts during the move make stations of their own (they keep the
+                // directions shown up to date); once the head stops they give way to the
+                // station after the move, tied to the one before by the distance asked for.
+                self.pending = Some(Pending { req, first: self.len, start_t: rd.t_s, changed: false, steady_since: None, last: rd.signed });
+                forced = Some(rd.motion);
             }
+            (_, Some(mut p)) => {
+                // Steady: the readouts stay within their noise of an anchor readout.
+                let d: f32 = (0..N).map(|c| p.last[c] * rd.signed[c]).sum();
+                let sg = if d < 0.0 { -1.0 } else { 1.0 };
+                let chi2: f32 = (0..N)
+                    .map(|c| {
+                        let v = (sg * rd.signed[c] - p.last[c]) / rd.sigma[c].max(1e-30);
+                        v * v
+                    })
+                    .sum();
+                if chi2 > N as f32 + 4.0 * libm::sqrtf(2.0 * N as f32) {
+                    p.changed = true;
+                    p.steady_since = Some(rd.t_s);
+                    p.last = rd.signed.map(|v| sg * v);
+                }
+                let dist = libm::hypotf(p.req.ahead_m, p.req.left_m);
+                let least = dist / MOVE_PACE_M_S;
+                let settle = STEADY_S.max(2.0 * rd.group_delay_s);
+                let elapsed = rd.t_s - p.start_t;
+                let steady = rd.t_s - p.steady_since.unwrap_or(p.start_t) >= settle;
+                if elapsed >= least + settle && steady {
+                    let anchored = p.first >= 1 && p.first <= self.len;
+                    if anchored {
+                        self.len = p.first;
+                    }
+                    forced = Some(if anchored && (p.changed || dist < 0.05) {
+                        Motion::Moved { ahead_m: p.req.ahead_m, left_m: p.req.left_m }
+                    } else {
+                        Motion::Free
+                    });
+                    self.pending = None;
+                } else if elapsed > 2.0 * least + MOVE_TIMEOUT_S {
+                    // Never stopped: the stations made on the way stay, as they are.
+                    self.pending = None;
+                } else {
+                    self.pending = Some(p);
+                }
+            }
+            _ => {}
         }
-        let turned = self.turned_at.take().is_some();
-        let rd = &Reading { motion: if turned { Motion::Turn } else { rd.motion }, ..*rd };
-        let new_station = self.add(rd, turned);
+        // The detector's output blends headings for a settling time after a turn ends.
+        let mut rd = *rd;
+        if rd.motion == Motion::Turn {
+            self.turn_until = rd.t_s + (2.0 * rd.group_delay_s).max(STEADY_S);
+        } else if rd.t_s < self.turn_until {
+            rd.motion = Motion::Turn;
+        }
+        let rd = &rd;
+        let turned = rd.motion == Motion::Turn && self.len > 0 && self.st[self.len - 1].motion != Motion::Turn;
+        let rd = &Reading { motion: forced.unwrap_or(rd.motion), ..*rd };
+        let new_station = self.add(rd, turned || forced.is_some());
         if new_station {
             self.cut_links();
         }
@@ -404,7 +508,8 @@ impl<const N: usize> Trail<N> {
 
     /// Pool the readout into the last station or start a new one; true when new.
     fn add(&mut self, rd: &Reading<N>, turned: bool) -> bool {
-        let period = self.settings.period_s.max(rd.noise_corr_s);
+        let period = self.settings.period_s;
+        let dt = if self.last_dt_s > 0.0 { self.last_dt_s } else { 0.05 };
         if self.len > 0 && !turned {
             let last = &self.st[self.len - 1];
             let m = last.mean();
@@ -419,11 +524,16 @@ impl<const N: usize> Trail<N> {
             let moved = chi2 > N as f32 + 4.0 * libm::sqrtf(2.0 * N as f32);
             let age = rd.t_s - last.t0;
             let long = age >= period;
-            let jump = chi2 > 100.0 * N as f32;
+            let jump = chi2 > 100.0 * N as f32 && rd.motion != Motion::Turn;
             // A moving head's station is closed after a few periods even when the noise
             // hides the change (a station stands for one place).
-            let stale = rd.motion != Motion::Hold && age >= (2.0 * period).max(MAX_STATION_S);
-            if !((moved && long) || jump || stale) {
+            let stale = rd.motion != Motion::Hold && age >= MAX_STATION_S;
+            // While the head turns, a station every TURN_STATION_S (a blend of headings).
+            let turning = rd.motion == Motion::Turn && age >= TURN_STATION_S;
+            // Stations made during a move are for the directions shown meanwhile; they give
+            // way when it ends, so they never push older stations out of the window.
+            let crowded = self.pending.map(|p| self.len >= p.first + MAX_MOVE_STATIONS || self.len == STATIONS).unwrap_or(false);
+            if crowded || !((moved && long) || jump || stale || turning) {
                 let st = &mut self.st[self.len - 1];
                 for c in 0..N {
                     st.sum[c] += s * rd.signed[c];
@@ -443,12 +553,15 @@ impl<const N: usize> Trail<N> {
             var[c] = rd.sigma[c] * rd.sigma[c];
         }
         self.st[self.len] =
-            Station { sum: rd.signed, var, n: 1, t0: rd.t_s, t1: rd.t_s, corr_s: rd.noise_corr_s.max(1e-3), motion: rd.motion };
+            Station { sum: rd.signed, var, n: 1, t0: rd.t_s, t1: rd.t_s, corr_s: rd.noise_corr_s.max(1e-3), dt_s: dt, motion: rd.motion };
         self.len += 1;
         true
     }
 
     fn drop_oldest(&mut self) {
+        if let Some(p) = self.pending.as_mut() {
+            p.first = p.first.saturating_sub(1);
+        }
         self.st.copy_within(1..STATIONS, 0);
         for h in self.hyp.iter_mut() {
             h.loc.copy_within(1..STATIONS, 0);
@@ -549,7 +662,11 @@ impl<const N: usize> Trail<N> {
     fn terms(&self, h: &Hyp, i: usize) -> Terms<N> {
         let st = &self.st[i];
         let a = st.mean();
-        let floor = if st.motion == Motion::Hold { self.settings.relative_floor } else { self.settings.moving_floor };
+        let floor = match st.motion {
+            Motion::Hold => self.settings.relative_floor,
+            Motion::Turn => TURN_FLOOR,
+            _ => self.settings.moving_floor,
+        };
         let sig = st.sigma(floor);
         let l = h.loc[i];
         let kk = libm::expf(h.glob[IK]);
@@ -607,6 +724,15 @@ impl<const N: usize> Trail<N> {
             Motion::Hold => (s.drift_sigma_m, s.drift_sigma_m, s.heading_sigma_rad),
             Motion::Turn => (s.drift_sigma_m, s.drift_sigma_m, 1e3),
             Motion::Free => (s.step_sigma_m, s.step_sigma_m, FREE_HEADING_RAD),
+            Motion::Moved { ahead_m, left_m } => (
+                MOVE_RELATIVE * libm::fabsf(ahead_m) + MOVE_SIGMA_M,
+                MOVE_RELATIVE * libm::fabsf(left_m) + MOVE_SIGMA_M,
+                s.heading_sigma_rad,
+            ),
+        };
+        let (ma, ml) = match self.st[i].motion {
+            Motion::Moved { ahead_m, left_m } => (ahead_m, left_m),
+            _ => (0.0, 0.0),
         };
         let (wa, wl, wp) = (1.0 / sa.max(1e-4), 1.0 / sl.max(1e-4), 1.0 / spsi.max(1e-4));
         let (p, c) = (h.loc[i - 1], h.loc[i]);
@@ -617,7 +743,7 @@ impl<const N: usize> Trail<N> {
         // ∂R(δ)p/∂δ
         let dx = -sn * c[0] - cs * c[1];
         let dy = cs * c[0] - sn * c[1];
-        let e = [(p[0] - rx) * wa, (p[1] - ry) * wl, -delta * wp];
+        let e = [(p[0] - rx - ma) * wa, (p[1] - ry - ml) * wl, -delta * wp];
         let ep = [[wa, 0.0, -dx * wa], [0.0, wl, -dy * wl], [0.0, 0.0, -wp]];
         let ec = [[-cs * wa, sn * wa, dx * wa], [-sn * wl, -cs * wl, dy * wl], [0.0, 0.0, wp]];
         (e, ep, ec)
@@ -945,7 +1071,7 @@ impl<const N: usize> Trail<N> {
         let (mut vx, mut vy) = (0.0f32, 0.0f32);
         let first = self.len.saturating_sub(4);
         let mut k = self.len;
-        while k > first + 1 && self.st[k - 1].motion != Motion::Turn {
+        while k > first + 1 && matches!(self.st[k - 1].motion, Motion::Along | Motion::Side | Motion::Hold) {
             k -= 1;
         }
         if self.len - k >= 2 {
@@ -972,6 +1098,13 @@ impl<const N: usize> Trail<N> {
             }
         }
         let speed = libm::sqrtf(vx * vx + vy * vy);
+        let mut span = 0.0f32;
+        for i in 0..self.len {
+            let d = wrap_pi(h.loc[i][2] - l[2]);
+            let (sn, cs) = (libm::sinf(d), libm::cosf(d));
+            let (x, y) = (cs * h.loc[i][0] - sn * h.loc[i][1], sn * h.loc[i][0] + cs * h.loc[i][1]);
+            span = span.max(libm::hypotf(x - l[0], y - l[1]));
+        }
         let lag = (t_s - self.st[last].t_mid() + group_delay_s).clamp(0.0, 1.0);
         let (ax, ay) = (l[0] - vx * lag, l[1] - vy * lag);
         let carry = 0.3 * speed * lag;
@@ -1016,6 +1149,7 @@ impl<const N: usize> Trail<N> {
             ambiguous_left: amb_l,
             runner_up_chi2: runner,
             speed_m_s: speed,
+            span_m: span,
             consistent,
         })
     }
@@ -1030,8 +1164,28 @@ pub const MIN_DEPTH_M: f32 = 0.1;
 /// Deepest, m.
 pub const MAX_DEPTH_M: f32 = 30.0;
 
+/// Most stations kept during one move.
+const MAX_MOVE_STATIONS: usize = 6;
+/// A station while the head turns spans at most this long, s.
+const TURN_STATION_S: f32 = 0.25;
+/// Floor of a reading's σ while the head turns, relative to the field: the detector's
+/// output then blends the headings of the last group delay or so (a few degrees).
+const TURN_FLOOR: f32 = 0.03;
+
+/// A move asked for is done once the readouts have held steady this long after changing, s.
+const STEADY_S: f32 = 0.4;
+/// The pace a move of a set distance is expected at (the hint asks for a slow
+/// walk or step; a faster person simply stands a moment longer), m/s.
+pub const MOVE_PACE_M_S: f32 = 0.2;
+/// Time allowed for a move beyond twice the expected, s.
+const MOVE_TIMEOUT_S: f32 = 4.0;
+/// Relative σ of a move of a set distance (a person paces it to about a fifth).
+const MOVE_RELATIVE: f32 = 0.2;
+/// Least σ of a move of a set distance, m.
+const MOVE_SIGMA_M: f32 = 0.02;
+
 /// Longest station while the head is asked to move, s.
-const MAX_STATION_S: f32 = 0.75;
+const MAX_STATION_S: f32 = 0.5;
 
 /// A motion prior broken by this many σ is cut (the station's motion becomes free).
 pub const CUT_SIGMAS: f32 = 5.0;
