@@ -33,10 +33,10 @@ pub fn write(path: &Path, synth: &mut Synth, fmt: WavFormat) -> Result<u64> {
         },
         sample_format: if fmt == WavFormat::F32 { hound::SampleFormat::Float } else { hound::SampleFormat::Int },
     };
-    let name = path.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
-    let tmp = path.with_file_name(format!(".tmp-{}-{}", std::process::id(), name));
+    let tmp = crate::output::temp_beside(path)?;
     let werr = |e: hound::Error| SimError::Wav { path: path.to_path_buf(), msg: format!("cannot write: {e}") };
-    let mut w = hound::WavWriter::create(&tmp, spec).map_err(werr)?;
+    let file = tmp.reopen().map_err(|e| SimError::io(path, "write", e))?;
+    let mut w = hound::WavWriter::new(std::io::BufWriter::new(file), spec).map_err(werr)?;
     let src_bits = (synth.fsc + 1.0).log2().round() as i32 + 1;
     let dst_bits = spec.bits_per_sample as i32;
     let mut frame = vec![0i32; synth.coils];
@@ -59,15 +59,9 @@ pub fn write(path: &Path, synth: &mut Synth, fmt: WavFormat) -> Result<u64> {
         w.flush().map_err(werr)?;
         Ok(())
     })();
-    let finished = result.and_then(|_| w.finalize().map_err(werr));
-    if let Err(e) = finished {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(e);
-    }
-    std::fs::rename(&tmp, path).map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        SimError::io(path, "write", e)
-    })?;
+    // On an error the temporary file is dropped (and deleted), the target left as it was.
+    result.and_then(|_| w.finalize().map_err(werr))?;
+    crate::output::persist(tmp, path)?;
     Ok(n)
 }
 
@@ -79,6 +73,28 @@ pub struct Recording {
     pub sample_rate_hz: f64,
     /// Integer codes (integer files) with their full-scale code, or floats.
     pub data: Samples,
+}
+
+impl Recording {
+    /// Whole frames (one sample per channel) in the recording.
+    pub fn frames(&self) -> usize {
+        let n = match &self.data {
+            Samples::Codes(v, _) => v.len(),
+            Samples::Floats(v) => v.len(),
+        };
+        n / self.channels.max(1)
+    }
+
+    /// One channel as f32 in full-scale units (±1), frames `from..to`.
+    pub fn channel(&self, c: usize, from: usize, to: usize) -> Vec<f32> {
+        let nc = self.channels.max(1);
+        let to = to.min(self.frames());
+        let from = from.min(to);
+        match &self.data {
+            Samples::Codes(v, fsc) => (from..to).map(|k| v.get(k * nc + c).map_or(0.0, |&x| x as f32 / *fsc as f32)).collect(),
+            Samples::Floats(v) => (from..to).map(|k| v.get(k * nc + c).copied().unwrap_or(0.0)).collect(),
+        }
+    }
 }
 
 /// Sample data.
