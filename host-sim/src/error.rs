@@ -96,8 +96,9 @@ pub fn allowed(e: &undertone_dsp::ConfigError) -> String {
     let (lo, hi) = (e.min as f64, e.max as f64);
     match e.param {
         Param::BeaconFrequency => format!(
-            "{} Hz ({MIN_FREQ_BANDWIDTHS} detection bandwidths) to below {} Hz ({MAX_FREQ_FRACTION} of the sample rate)",
+            "{} Hz ({MIN_FREQ_BANDWIDTHS} × the {} Hz detection bandwidth) to below {} Hz ({MAX_FREQ_FRACTION} × the sample rate)",
             num(lo),
+            num(lo / MIN_FREQ_BANDWIDTHS as f64),
             num(hi)
         ),
         Param::ChannelScale => "a finite value other than 0".into(),

@@ -221,6 +221,15 @@ pub fn summarise(sc: &Scenario, run: &SimRun) -> Result<Summary> {
     for (i, segment) in motion.segments().iter().enumerate() {
         let MotionSpec::Walk { from, to, heading_deg, .. } = &segment.spec else { continue };
         let seg: Vec<&Row> = rows.iter().copied().filter(|r| motion.segment_at(r.t_s) == i).collect();
+        // A null counts only where the readout's data lie within this walk: they reach about
+        // half the detector's settling time either side of the readout's centre, and a readout
+        // straddling the turn into the next part mixes the two (an instant about-turn of the
+        // handle dips the horizontal reading through zero).
+        let margin = 0.5 * s.settle_s;
+        let inside = |k: &usize| {
+            let t = seg[*k].t_s;
+            t >= segment.start_s + margin && t <= segment.start_s + segment.duration_s - margin
+        };
         let Some(best) = strongest(&seg) else { continue };
         let Some(t) = seg[best].truth else { continue };
         let (dx, dy) = (to[0] - from[0], to[1] - from[1]);
@@ -237,7 +246,8 @@ pub fn summarise(sc: &Scenario, run: &SimRun) -> Result<Summary> {
         let handle_along_walk = diff.min(std::f64::consts::PI - diff) < 20f64.to_radians();
         let along_axis = handle_along_walk && seg.iter().filter(|r| r.state == "in-line").count() * 2 > seg.len();
         let pos = |k: usize| seg[k].truth.map(|t| along(t.x_m, t.y_m));
-        let (before, after) = (null_beside(&seg, best, false).and_then(pos), null_beside(&seg, best, true).and_then(pos));
+        let (before, after) =
+            (null_beside(&seg, best, false).filter(inside).and_then(pos), null_beside(&seg, best, true).filter(inside).and_then(pos));
         let nulls: Vec<f64> = before.into_iter().chain(after).collect();
         let null_span = before.zip(after).filter(|_| along_axis).map(|(a, b)| {
             let (aft, fore) = ((peak_along_m - a).abs(), (b - peak_along_m).abs());

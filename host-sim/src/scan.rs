@@ -165,7 +165,17 @@ pub fn command(path: &Path, opt: ScanOptions, json: bool, out: &mut dyn Write) -
         for t in &tones {
             writeln!(out, "{:>12.3} {:>8.1} {:>10.1} {:>8}  {}", t.freq_hz, t.snr_db, t.level_dbfs, t.channel, t.note).map_err(io)?;
         }
-        writeln!(out, "Replay at a beacon's frequency with: undertone replay {} --freq <freq Hz>", path.display()).map_err(io)?;
+        match tones.iter().find(|t| !t.note.starts_with("mains")) {
+            Some(t) => writeln!(
+                out,
+                "The strongest tone off the mains harmonics is at {:.2} Hz: undertone replay {} --freq {:.2}",
+                t.freq_hz,
+                path.display(),
+                t.freq_hz
+            )
+            .map_err(io)?,
+            None => writeln!(out, "Every tone found sits on a mains harmonic: no beacon heard.").map_err(io)?,
+        }
     }
     Ok(())
 }

@@ -105,6 +105,13 @@ pub enum Samples {
     Floats(Vec<f32>),
 }
 
+/// Length of a WAV recording, s (from its header).
+pub fn duration_s(path: &Path) -> Result<f64> {
+    let r =
+        hound::WavReader::open(path).map_err(|e| SimError::Wav { path: path.to_path_buf(), msg: format!("not a usable WAV file: {e}") })?;
+    Ok(r.duration() as f64 / r.spec().sample_rate.max(1) as f64)
+}
+
 /// Read a WAV (1 to 8 channels; 16/24/32-bit integer or 32-bit float).
 pub fn read(path: &Path) -> Result<Recording> {
     let bad = |msg: String| SimError::Wav { path: path.to_path_buf(), msg };
