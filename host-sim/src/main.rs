@@ -259,7 +259,7 @@ fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
             let (files, range) = undertone_sim::map::map(&sc, &output)?;
             writeln!(
                 out,
-                "detection range: {} from the point over the sonde (the best coil reads at least {} dB SNR all round; field model and the scenario's noise)",
+                "detection range: {} from the point over the sonde (the best coil reads at least {} dB SNR all round, by the field model and the scenario's sensor noise; mains and other tones left out)",
                 units.dist(range),
                 undertone_sim::range::RANGE_SNR_DB
             )

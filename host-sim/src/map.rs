@@ -125,7 +125,7 @@ pub fn field_map_marked(
     heatmap(
         &out_dir.join(stem),
         &Heatmap {
-            title: format!("{}: {}{when}", sc.name, title),
+            title: format!("{}\n{title}{when}", sc.name),
             x_label: "east (m)".into(),
             y_label: "north (m)".into(),
             value_label: label.into(),

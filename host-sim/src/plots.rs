@@ -356,7 +356,7 @@ where
         if v.dashed {
             c.draw_series(DashedLineSeries::new(vec![(v.x, yr.0), (v.x, yr.1)], 8, 6, v.color.stroke_width(2)))?;
         } else {
-            c.draw_series(LineSeries::new(vec![(v.x, yr.0), (v.x, yr.1)], v.color.stroke_width(1)))?;
+            c.draw_series(LineSeries::new(vec![(v.x, yr.0), (v.x, yr.1)], v.color.stroke_width(2)))?;
         }
     }
     let mut off: Vec<f64> = Vec::new();
@@ -489,9 +489,14 @@ where
     if hi - lo < 1e-12 {
         hi = lo + 1.0;
     }
+    // The title, one line per '\n'.
+    let lines: Vec<&str> = h.title.lines().collect();
+    for (i, l) in lines.iter().enumerate() {
+        main.draw(&Text::new(l.to_string(), (20, 8 + 26 * i as i32), ("sans-serif", 22).into_font()))?;
+    }
     let mut c = ChartBuilder::on(&main)
-        .caption(&h.title, ("sans-serif", 22))
         .margin(15)
+        .margin_top(20 + 26 * lines.len() as i32)
         .x_label_area_size(50)
         .y_label_area_size(70)
         .build_cartesian_2d(h.x.0..h.x.1, h.y.0..h.y.1)?;

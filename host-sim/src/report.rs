@@ -134,6 +134,10 @@ pub struct Summary {
     /// reads at least 20 dB SNR in every direction, from the field model, m (simulation).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub detection_range_m: Option<f64>,
+    /// On this run: the horizontal distance within which every readout read at least 20 dB SNR,
+    /// and the farthest the receiver went from the point over the sonde, m (simulation).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run_range_m: Option<[f64; 2]>,
     /// The caution.
     pub caution: &'static str,
 }
@@ -209,6 +213,7 @@ pub fn summarise_rows(run: &SimRun) -> Summary {
         methods,
         walks: Vec::new(),
         detection_range_m: None,
+        run_range_m: None,
         caution: CAUTION_LINE,
     }
 }
@@ -276,6 +281,11 @@ pub fn summarise(sc: &Scenario, run: &SimRun) -> Result<Summary> {
         });
     }
     s.detection_range_m = Some(crate::range::detection_range_m(sc)?);
+    let ranges = rows.iter().filter_map(|r| r.truth.map(|t| (t.range_m, r.snr_db)));
+    let farthest = ranges.clone().map(|r| r.0).fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
+    let weak =
+        ranges.filter(|r| r.1 < crate::range::RANGE_SNR_DB).map(|r| r.0).fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.min(v))));
+    s.run_range_m = farthest.map(|f| [weak.unwrap_or(f), f]);
     Ok(s)
 }
 
@@ -427,10 +437,28 @@ pub fn print_summary(out: &mut dyn Write, s: &Summary, units: Units) -> std::io:
     if let Some(r) = s.detection_range_m {
         writeln!(
             out,
-            "detection range: {} from the point over the sonde (the best coil reads at least {} dB SNR all round; field model and the scenario's noise)",
+            "detection range: {} from the point over the sonde (the best coil reads at least {} dB SNR all round, by the field model and the scenario's sensor noise; mains and other tones left out)",
             units.dist(r),
             crate::range::RANGE_SNR_DB
         )?;
+    }
+    if let Some([within, farthest]) = s.run_range_m {
+        if within < farthest {
+            writeln!(
+                out,
+                "on this run every readout within {} of it read at least {} dB SNR (the receiver went out to {}; mains and interference count here)",
+                units.dist(within),
+                crate::range::RANGE_SNR_DB,
+                units.dist(farthest)
+            )?;
+        } else {
+            writeln!(
+                out,
+                "on this run every readout read at least {} dB SNR, out to {} from it (as far as the receiver went)",
+                crate::range::RANGE_SNR_DB,
+                units.dist(farthest)
+            )?;
+        }
     }
     Ok(())
 }

@@ -89,6 +89,7 @@ pub struct Section {
 }
 
 const TRUTH: RGBColor = RGBColor(0, 0, 0);
+const OVER: RGBColor = RGBColor(0, 140, 60);
 const PEAK: RGBColor = RGBColor(230, 120, 0);
 const NULL: RGBColor = RGBColor(120, 120, 120);
 
@@ -120,7 +121,7 @@ fn sections(sc: &Scenario, run: &SimRun, s: &Summary, units: Units) -> Vec<Secti
                 vlines.push(VLine {
                     name: "point over the sonde (truth)".into(),
                     x: units.value(w.sonde_along_m),
-                    color: TRUTH,
+                    color: OVER,
                     dashed: false,
                 });
                 vlines.push(VLine { name: "strongest reading".into(), x: units.value(w.peak_along_m), color: PEAK, dashed: true });
@@ -132,7 +133,7 @@ fn sections(sc: &Scenario, run: &SimRun, s: &Summary, units: Units) -> Vec<Secti
             }
             let (title, x_label) = if seg.moves() {
                 (
-                    format!("part {}: {} ({} s)", i + 1, seg.describe(&|m| len(m)), crate::units::num(seg.duration_s)),
+                    format!("part {}: {} ({:.1} s)", i + 1, seg.describe(&|m| len(m)), seg.duration_s),
                     format!("distance along this part ({})", units.unit()),
                 )
             } else {
