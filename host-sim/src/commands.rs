@@ -1,15 +1,16 @@
 //! Printing and plotting for `sweep` and `depthcheck`.
 
-use crate::depthcheck::{self, HeadChoice, DEPTHS_M, LIMIT_PCT, METHODS, PITCHES_DEG};
+use crate::depthcheck::{self, DEPTHS_M, LIMIT_PCT, METHODS, PITCHES_DEG};
 use crate::error::{Result, SimError};
 use crate::output::{folder, write_atomic};
-use crate::plots::{heatmap, line_chart, Chart, Heatmap, Series};
-use crate::report::CAUTIONS;
-use crate::scenario::Scenario;
+use crate::plots::{figure, heatmap, Figure as Plot, Heatmap, Panel, Series, Style};
+use crate::report::{CAUTIONS, CAUTION_LINE};
+use crate::scenario::{HeadKind, Scenario};
 use crate::sweep::{
     recommend, sweep as run_sweep, Figure, Recommendation, Standing, SweepRow, SweepSpec, CRITERIA, DEFAULT_TRIALS, FEW_TRIALS,
     MAX_DEPTH_BIAS_PCT, MAX_FALSE_PEAK_RATE, MIN_DEPTH_RATE,
 };
+use crate::units::Units;
 use plotters::style::RGBColor;
 use std::io::Write;
 use std::path::Path;
@@ -46,7 +47,8 @@ fn standing(s: Standing) -> String {
 /// `sweep`: the table with 95 % intervals, each bandwidth's standing, the
 /// recommendation (or why there is none yet), the CSV and the plots.
 /// `out` carries the report; warnings go to stderr.
-pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Write) -> Result<()> {
+pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, units: Units, out: &mut dyn Write) -> Result<()> {
+    folder(out_dir)?;
     if spec.trials < FEW_TRIALS {
         eprintln!(
             "undertone: warning: --trials {} is below {FEW_TRIALS}: the 95 % intervals will be too wide to decide much (default {DEFAULT_TRIALS})",
@@ -68,7 +70,13 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
     writeln!(
         out,
         "{:>8} {:>16} {:>24} {:>22} {:>8} {:>27} {:>16}",
-        "bw Hz", "depth found %", "depth bias %", "depth scatter %", "settle s", "peak lag m", "false peaks %"
+        "bw Hz",
+        "depth found %",
+        "depth bias %",
+        "depth scatter %",
+        "settle s",
+        format!("peak lag {}", units.unit()),
+        "false peaks %"
     )
     .map_err(io)?;
     let mut csv = String::from(
@@ -91,7 +99,14 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
             fig(r.depth_bias_pct, 2, true),
             fig(r.depth_scatter_pct, 2, false),
             r.settle_s,
-            fig(r.lag_m, 3, true),
+            fig(
+                r.lag_m.map(|f| Figure {
+                    value: units.value(f.value),
+                    ci: f.ci.map(|c| crate::stats::Interval { lo: units.value(c.lo), hi: units.value(c.hi) })
+                }),
+                3,
+                true
+            ),
             pct(r.false_peak_rate),
         )
         .map_err(io)?;
@@ -117,7 +132,8 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
     }
     writeln!(
         out,
-        "\nCriteria: |peak lag| within {max_lag_m} m, false peaks in at most {:.0} % of trials, a depth in at least {:.0} % of them, depth bias within ±{} %.",
+        "\nCriteria: |peak lag| within {}, false peaks in at most {:.0} % of trials, a depth in at least {:.0} % of them, depth bias within ±{} %.",
+        units.dist(max_lag_m),
         100.0 * MAX_FALSE_PEAK_RATE,
         100.0 * MIN_DEPTH_RATE,
         MAX_DEPTH_BIAS_PCT
@@ -137,14 +153,22 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
         }
         writeln!(out, " {:>20}", standing(r.verdict())).map_err(io)?;
     }
+    let few = if spec.trials < FEW_TRIALS {
+        format!(
+            " (from only {} trials per bandwidth: below {FEW_TRIALS} the intervals are wide and rest on few runs; confirm with --trials {DEFAULT_TRIALS})",
+            spec.trials
+        )
+    } else {
+        String::new()
+    };
     match recommend(&rows) {
         Recommendation::Bandwidth(b) => writeln!(
             out,
-            "recommended: {b} Hz, the narrowest bandwidth whose intervals meet every criterion, every narrower one failing at least one"
+            "recommended: {b} Hz, the narrowest bandwidth whose intervals meet every criterion, every narrower one failing at least one{few}"
         )
         .map_err(io)?,
         Recommendation::None => {
-            writeln!(out, "no bandwidth meets the criteria (every one fails at least one); try other bandwidths or a slower walk")
+            writeln!(out, "no bandwidth meets the criteria (every one fails at least one); try other bandwidths or a slower walk{few}")
                 .map_err(io)?
         }
         Recommendation::Undecided(b, n) => {
@@ -156,55 +180,72 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec, out_dir: &Path, out: &mut dyn Writ
                 .map_err(io)?
         }
     }
-    folder(out_dir)?;
     let csv_path = out_dir.join("sweep.csv");
     write_atomic(&csv_path, csv.as_bytes())?;
     let pts = |g: &dyn Fn(&SweepRow) -> Option<f64>| rows.iter().filter_map(|r| g(r).map(|v| (r.bandwidth_hz, v))).collect::<Vec<_>>();
     let lo = |f: Option<Figure>| f.and_then(|f| f.ci).map(|c| c.lo);
     let hi = |f: Option<Figure>| f.and_then(|f| f.ci).map(|c| c.hi);
     let val = |f: Option<Figure>| f.map(|f| f.value);
-    let series = |name: &str, g: &dyn Fn(&SweepRow) -> Option<Figure>, color: RGBColor| {
-        let mut ends = pts(&|r| lo(g(r)));
-        ends.extend(pts(&|r| hi(g(r))));
+    // Each figure as dots with its 95 % interval as the bar (half its width as "σ"), joined by a thin line.
+    let series = |name: &str, g: &dyn Fn(&SweepRow) -> Option<Figure>, scale: f64, color: RGBColor| {
+        let bars: Vec<(f64, f64, f64)> = rows
+            .iter()
+            .filter_map(|r| {
+                let f = g(r)?;
+                let half = lo(Some(f)).zip(hi(Some(f))).map(|(a, b)| 0.5 * (b - a)).unwrap_or(0.0);
+                Some((r.bandwidth_hz, scale * (lo(Some(f)).unwrap_or(f.value) + half), scale * half))
+            })
+            .collect();
         [
-            Series { name: name.into(), points: pts(&|r| val(g(r))), color, dots: false },
-            Series { name: format!("{name}: 95 % interval ends"), points: ends, color, dots: true },
+            Series { style: Style::Line, ..Series::line(format!("{name}: estimate"), pts(&|r| val(g(r)).map(|v| scale * v)), color) },
+            Series::bars(format!("{name}: 95 % interval"), bars, color),
         ]
     };
     let mut files = vec![csv_path];
-    let mut depth_series = series("bias (mean of trials)", &|r| r.depth_bias_pct, RGBColor(214, 39, 40)).into_iter().collect::<Vec<_>>();
-    depth_series.extend(series("scatter (sd of trials)", &|r| r.depth_scatter_pct, RGBColor(31, 119, 180)));
-    files.extend(line_chart(
+    let mut depth_series =
+        series("bias (mean of trials)", &|r| r.depth_bias_pct, 1.0, RGBColor(214, 39, 40)).into_iter().collect::<Vec<_>>();
+    depth_series.extend(series("scatter (sd of trials)", &|r| r.depth_scatter_pct, 1.0, RGBColor(31, 119, 180)));
+    let bias_lines = [1.0, -1.0].map(|sign| Series {
+        style: Style::Dashed,
+        ..Series::line(
+            format!("bias limit ±{MAX_DEPTH_BIAS_PCT} %"),
+            rows.iter().map(|r| (r.bandwidth_hz, sign * MAX_DEPTH_BIAS_PCT)).collect(),
+            RGBColor(120, 120, 120),
+        )
+    });
+    depth_series.extend(bias_lines);
+    files.extend(figure(
         &out_dir.join("sweep-depth"),
-        &Chart {
-            title: format!("{}: depth error against bandwidth", sc.name),
-            x_label: "detection bandwidth (Hz)".into(),
-            y_label: "depth error (%)".into(),
-            series: depth_series,
-            y_range: None,
+        &Plot {
+            title: format!("{}: depth error against bandwidth ({} trials each)", sc.name, spec.trials),
+            panels: vec![Panel::new("depth error over the trials", "detection bandwidth (Hz)", "depth error (%)", depth_series)],
+            caption: Some(CAUTION_LINE.into()),
         },
     )?);
-    let mut lag_series = series("peak lag, m", &|r| r.lag_m, RGBColor(44, 160, 44)).into_iter().collect::<Vec<_>>();
-    lag_series.push(Series {
-        name: "99 % settling, s".into(),
-        points: pts(&|r| Some(r.settle_s)),
-        color: RGBColor(148, 103, 189),
-        dots: false,
-    });
-    lag_series.extend([(1.0, RGBColor(120, 120, 120)), (-1.0, RGBColor(190, 190, 190))].map(|(sign, color)| Series {
-        name: format!("lag limit {:+} m", sign * max_lag_m),
-        points: rows.iter().map(|r| (r.bandwidth_hz, sign * max_lag_m)).collect(),
-        color,
-        dots: false,
+    let mut lag_series = series("peak lag", &|r| r.lag_m, units.value(1.0), RGBColor(44, 160, 44)).into_iter().collect::<Vec<_>>();
+    lag_series.extend([1.0, -1.0].map(|sign| Series {
+        style: Style::Dashed,
+        ..Series::line(
+            format!("lag limit ±{}", units.dist(max_lag_m)),
+            rows.iter().map(|r| (r.bandwidth_hz, sign * units.value(max_lag_m))).collect(),
+            RGBColor(120, 120, 120),
+        )
     }));
-    files.extend(line_chart(
+    let settle = vec![Series::line("99 % settling time", pts(&|r| Some(r.settle_s)), RGBColor(148, 103, 189))];
+    files.extend(figure(
         &out_dir.join("sweep-lag"),
-        &Chart {
-            title: format!("{}: peak lag and settling against bandwidth", sc.name),
-            x_label: "detection bandwidth (Hz)".into(),
-            y_label: "lag (m) / settling (s)".into(),
-            series: lag_series,
-            y_range: None,
+        &Plot {
+            title: format!("{}: peak lag and settling against bandwidth ({} trials each)", sc.name, spec.trials),
+            panels: vec![
+                Panel::new(
+                    "where the receiver is when its strongest readout shows, past the point over the sonde",
+                    "detection bandwidth (Hz)",
+                    format!("peak lag ({})", units.unit()),
+                    lag_series,
+                ),
+                Panel::new("the detector's 99 % settling time", "detection bandwidth (Hz)", "settling (s)", settle),
+            ],
+            caption: Some(CAUTION_LINE.into()),
         },
     )?);
     writeln!(out, "files:").map_err(io)?;
@@ -220,36 +261,42 @@ fn f_opt(v: Option<f64>, p: usize) -> String {
 }
 
 /// `depthcheck`.
-pub fn depthcheck(head: HeadChoice, snr_db: f64, out_dir: &Path, out: &mut dyn Write) -> Result<()> {
+pub fn depthcheck(head: HeadKind, snr_db: f64, out_dir: &Path, units: Units, out: &mut dyn Write) -> Result<()> {
+    folder(out_dir)?;
     let cases = depthcheck::run(head, snr_db)?;
     let methods: Vec<&str> = METHODS.iter().cloned().filter(|m| cases.iter().any(|c| c.method == *m)).collect();
-    writeln!(out, "Depth check ({head:?} head): worst |error| noise-free / RMS error at {snr_db} dB SNR, over offsets (0, 0.05h ahead, 0.1h left), pitch 0-30 deg, upper-coil gain mismatch 0-5 %").map_err(io)?;
     writeln!(
         out,
-        "'*' marks an error past {LIMIT_PCT} %; '--' means the receiver withheld every estimate; 'w' counts withheld grid points"
+        "Depth check (head {}): depth error of each method, % of the true depth, over offsets from the point over the sonde",
+        head.name()
     )
     .map_err(io)?;
-    write!(out, "{:>7}", "depth m").map_err(io)?;
+    writeln!(out, "(none, 0.05 h ahead, 0.1 h left), sonde pitch 0 to 30 deg and upper-coil gain mismatch 0 to 5 %.").map_err(io)?;
+    writeln!(
+        out,
+        "Each cell: worst |error| noise-free / RMS error at {snr_db} dB SNR, and 'w' withheld of the grid points; '*' marks an error past {LIMIT_PCT} %, '--' every estimate withheld."
+    )
+    .map_err(io)?;
+    write!(out, "{:>10}", "true depth").map_err(io)?;
     for m in &methods {
-        write!(out, " {:>26}", m).map_err(io)?;
+        write!(out, " {:>28}", m).map_err(io)?;
     }
     writeln!(out).map_err(io)?;
     let table = depthcheck::table(&cases);
     for (h, per) in &table {
-        write!(out, "{:>7.2}", h).map_err(io)?;
+        write!(out, "{:>10}", units.depth(*h)).map_err(io)?;
         for (i, (worst, rms, withheld, total)) in per.iter().enumerate() {
             if !methods.contains(&METHODS[i]) {
                 continue;
             }
             let mark = |v: Option<f64>| match v {
-                Some(v) => format!("{v:.2}{}", if v > LIMIT_PCT { "*" } else { "" }),
+                Some(v) => format!("{v:.2} %{}", if v > LIMIT_PCT { "*" } else { " " }),
                 None => "--".into(),
             };
-            write!(out, " {:>26}", format!("{} / {} w{}/{}", mark(*worst), mark(*rms), withheld, total)).map_err(io)?;
+            write!(out, " {:>28}", format!("{} / {} w{}/{}", mark(*worst), mark(*rms), withheld, total)).map_err(io)?;
         }
         writeln!(out).map_err(io)?;
     }
-    folder(out_dir)?;
     let mut csv = String::from("method,depth_m,ahead_over_h,left_over_h,pitch_deg,mismatch,noisy,error_pct\n");
     for c in &cases {
         csv += &format!(
@@ -291,18 +338,20 @@ pub fn depthcheck(head: HeadChoice, snr_db: f64, out_dir: &Path, out: &mut dyn W
             &Heatmap {
                 title: format!("{m}: worst depth error, noise-free (grey: withheld)"),
                 x_label: "sonde pitch (deg)".into(),
-                y_label: "true depth (m)".into(),
+                y_label: format!("true depth ({})", if units == Units::Metric { "m" } else { "ft and in" }),
                 value_label: "|error| %".into(),
                 x: (0.0, PITCHES_DEG.len() as f64),
                 y: (0.0, DEPTHS_M.len() as f64),
                 values,
                 tracks: vec![],
+                marks: vec![],
                 marked,
                 marked_name: format!("error > {LIMIT_PCT} %"),
                 cell_labels: Some((
                     PITCHES_DEG.iter().map(|p| format!("{p}")).collect(),
-                    DEPTHS_M.iter().map(|d| format!("{d}")).collect(),
+                    DEPTHS_M.iter().map(|d| if units == Units::Metric { format!("{d}") } else { units.depth(*d) }).collect(),
                 )),
+                caption: Some(CAUTION_LINE.into()),
             },
         )?);
     }

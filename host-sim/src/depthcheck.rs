@@ -11,6 +11,7 @@
 
 use crate::error::Result;
 use crate::physics::{axis, dipole, dot};
+use crate::scenario::HeadKind;
 use crate::synth::HeadGeom;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
@@ -31,6 +32,8 @@ pub const MISMATCH: [f64; 3] = [0.0, 0.025, 0.05];
 pub const OFFSETS: [(f64, f64); 3] = [(0.0, 0.0), (0.05, 0.0), (0.0, 0.1)];
 /// Methods.
 pub const METHODS: [&str; 4] = ["gradient", "null span", "known moment", "6-coil fit"];
+/// SNR of the noisy case accepted, dB.
+pub const SNR_RANGE_DB: (f64, f64) = (10.0, 120.0);
 /// Error limit marked in the report, %.
 pub const LIMIT_PCT: f64 = 5.0;
 
@@ -159,17 +162,15 @@ fn nulls(h: f64, pitch: f64) -> Option<(f64, f64)> {
     Some((fore - xp, xp - aft))
 }
 
-/// Which built-in head the check reads with.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
-pub enum HeadChoice {
-    /// The 4-coil reference head (gradient, known moment, null span).
-    Reference4,
-    /// The 6-coil head (also the one-station fit).
-    Triads6,
-}
-
 /// Run the grid. `snr_db` is the SNR of the strongest coil in the noisy case.
-pub fn run(head: HeadChoice, snr_db: f64) -> Result<Vec<Case>> {
+pub fn run(head: HeadKind, snr_db: f64) -> Result<Vec<Case>> {
+    if !(snr_db.is_finite() && (SNR_RANGE_DB.0..=SNR_RANGE_DB.1).contains(&snr_db)) {
+        let (lo, hi) = SNR_RANGE_DB;
+        return Err(crate::error::SimError::Arg {
+            name: "--snr-db".into(),
+            msg: format!("{snr_db} dB is not allowed (allowed: {lo} to {hi} dB)"),
+        });
+    }
     let g4 = HeadGeom::from_head(&Head::reference4());
     let g6 = HeadGeom::from_head(&Head::triads6());
     let mut points = Vec::new();
@@ -193,11 +194,11 @@ pub fn run(head: HeadChoice, snr_db: f64) -> Result<Vec<Case>> {
             // Strength calibration: level sonde, directly below (K = μ0m/4π = 100 nT·m³ for 1 A·m²).
             let cal = Calibration { upper_gain: 1.0, strength: 100.0, strength_sigma: 0.0 };
             let (grad, known, fit) = match head {
-                HeadChoice::Reference4 => {
+                HeadKind::Reference4 => {
                     let (g, k, _) = locate(Head::reference4(), &readings(&g4, h, a * h, l * h, p, mm), snr, cal, &mut rng);
                     (g, k, None)
                 }
-                HeadChoice::Triads6 => {
+                HeadKind::Triads6 => {
                     let r6 = readings(&g6, h, a * h, l * h, p, mm);
                     let (g, k, _) = locate(Head::triads6(), &r6, snr, cal, &mut rng);
                     let (_, _, f) = locate(Head::triads6(), &r6, snr, Calibration::default(), &mut rng);
@@ -226,7 +227,7 @@ pub fn run(head: HeadChoice, snr_db: f64) -> Result<Vec<Case>> {
                 error_pct: est.map(|e| 100.0 * (e - h) / h),
             };
             let mut v = vec![mk("gradient", grad), mk("known moment", known)];
-            if head == HeadChoice::Triads6 {
+            if head == HeadKind::Triads6 {
                 v.push(mk("6-coil fit", fit));
             }
             // The null span is walked along the axis: one case per depth/pitch/noise (no offset or mismatch).

@@ -66,12 +66,26 @@ pub fn run(out: &mut dyn Write) -> std::io::Result<()> {
         )?;
     }
     let d = last.ok_or_else(|| std::io::Error::other("no readout"))?;
-    writeln!(out, "{:>5} {:>12} {:>12} {:>10} {:>10} {:>9}", "coil", "true amp", "measured", "true ph", "measured", "SNR dB")?;
+    writeln!(out, "amplitudes as a fraction of full scale; phases in degrees")?;
+    writeln!(
+        out,
+        "{:>5} {:>12} {:>12} {:>12} {:>12} {:>9}",
+        "coil", "true amp FS", "measured FS", "true ph deg", "measured deg", "SNR dB"
+    )?;
     for c in 0..4 {
         let p = d.phasors[c];
         let true_ph = if amps[c] < 0.0 { wrap(phase + std::f64::consts::PI) } else { phase };
         let snr = 20.0 * (p.magnitude() as f64 / (d.noise_sigma[c] as f64 * std::f64::consts::SQRT_2)).log10();
-        writeln!(out, "{:>5} {:>12.6} {:>12.6} {:>10.4} {:>10.4} {:>9.1}", c, amps[c].abs(), p.magnitude(), true_ph, p.angle_rad(), snr)?;
+        writeln!(
+            out,
+            "{:>5} {:>12.6} {:>12.6} {:>12.2} {:>12.2} {:>9.1}",
+            c,
+            amps[c].abs(),
+            p.magnitude(),
+            true_ph.to_degrees(),
+            (p.angle_rad() as f64).to_degrees(),
+            snr
+        )?;
     }
     writeln!(out, "frequency offset {:+.4} Hz; flags: {}", d.freq_offset_hz, d.flags.names().collect::<Vec<_>>().join(","))?;
     Ok(())

@@ -76,13 +76,44 @@ impl fmt::Display for SimError {
             SimError::Parse { path, msg } => write!(f, "{}: {}", path, msg.replace('\n', " ").trim()),
             SimError::Value { path, field, value, allowed } => write!(f, "{path}: {field} = {value} is not allowed (allowed: {allowed})"),
             SimError::Wav { path, msg } => write!(f, "{}: {}", path.display(), msg),
-            SimError::Config { context, err } => write!(f, "{context}: {err}"),
+            SimError::Config { context, err } => write!(f, "{context}: {}", refused(err)),
             SimError::Arg { name, msg } => write!(f, "{name}: {msg}"),
         }
     }
 }
 
 impl std::error::Error for SimError {}
+
+/// What a setting the receiver refused allows, with its unit, the numbers
+/// written as people read them (the DSP's own message prints every digit of
+/// an `f32`). The beacon frequency must lie below its upper limit, not on it.
+pub fn allowed(e: &undertone_dsp::ConfigError) -> String {
+    use crate::units::num;
+    use undertone_dsp::detect::settings::{MAX_FREQ_FRACTION, MIN_FREQ_BANDWIDTHS};
+    use undertone_dsp::Param;
+    let u = e.param.unit();
+    let sp = if u.is_empty() { "" } else { " " };
+    let (lo, hi) = (e.min as f64, e.max as f64);
+    match e.param {
+        Param::BeaconFrequency => format!(
+            "{} Hz ({MIN_FREQ_BANDWIDTHS} × the {} Hz detection bandwidth) to below {} Hz ({MAX_FREQ_FRACTION} × the sample rate)",
+            num(lo),
+            num(lo / MIN_FREQ_BANDWIDTHS as f64),
+            num(hi)
+        ),
+        Param::ChannelScale => "a finite value other than 0".into(),
+        _ if hi >= f32::MAX as f64 => format!("{}{sp}{u} or more", num(lo)),
+        _ => format!("{}{sp}{u} to {}{sp}{u}", num(lo), num(hi)),
+    }
+}
+
+/// One line for a setting the receiver refused: what, the value, what is allowed.
+pub fn refused(e: &undertone_dsp::ConfigError) -> String {
+    let u = e.param.unit();
+    let sp = if u.is_empty() { "" } else { " " };
+    let coil = e.param.coil().map(|i| format!("coil {i} ")).unwrap_or_default();
+    format!("{coil}{} {}{sp}{u} is not allowed (allowed: {})", e.param.name(), crate::units::num(e.value as f64), allowed(e))
+}
 
 /// Result with [`SimError`].
 pub type Result<T> = std::result::Result<T, SimError>;

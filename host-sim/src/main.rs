@@ -4,10 +4,13 @@ use clap::{Parser, Subcommand};
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
-use undertone_sim::depthcheck::HeadChoice;
 use undertone_sim::error::{Result, SimError};
-use undertone_sim::scenario::Scenario;
+use undertone_sim::scenario::{HeadKind, Scenario};
+use undertone_sim::units::Units;
+use undertone_sim::walk::ShowOptions;
 use undertone_sim::wav::WavFormat;
+
+mod args;
 
 #[derive(Parser)]
 #[command(name = "undertone", version, about = "Simulate, replay and check the Undertone buried-beacon receiver", long_about = None)]
@@ -19,6 +22,7 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     /// Run the built-in demo: a walk along and across a buried sonde.
+    #[command(allow_negative_numbers = true)]
     Demo {
         /// Output folder for plots.
         #[arg(long, short, default_value = "undertone-out/demo")]
@@ -26,14 +30,18 @@ enum Command {
         /// Noise seed (default: the scenario's).
         #[arg(long)]
         seed: Option<u64>,
-        /// Print one JSON object per readout instead of the report.
+        /// Print one JSON object per readout and a last summary object (lengths in metres) instead of the report.
         #[arg(long)]
         json: bool,
         /// Also write what the board's screen shows: screens.gif and PNG stills.
         #[arg(long)]
         screens: bool,
+        /// Lengths in metres, or depths in feet and inches and positions in feet.
+        #[arg(long, value_enum, default_value = "metric")]
+        units: Units,
     },
     /// Run a scenario file.
+    #[command(allow_negative_numbers = true)]
     Walk {
         /// Scenario TOML file.
         scenario: PathBuf,
@@ -43,12 +51,15 @@ enum Command {
         /// Noise seed (default: the scenario's).
         #[arg(long)]
         seed: Option<u64>,
-        /// Print one JSON object per readout instead of the report.
+        /// Print one JSON object per readout and a last summary object (lengths in metres) instead of the report.
         #[arg(long)]
         json: bool,
         /// Also write what the board's screen shows: screens.gif and PNG stills.
         #[arg(long)]
         screens: bool,
+        /// Lengths in metres, or depths in feet and inches and positions in feet.
+        #[arg(long, value_enum, default_value = "metric")]
+        units: Units,
     },
     /// Write a scenario's synthetic multi-channel ADC stream as WAV.
     Synth {
@@ -64,21 +75,45 @@ enum Command {
         #[arg(long)]
         seed: Option<u64>,
     },
-    /// Run the receiver on a recording (1 to 8 channels).
+    /// Run the receiver on a recording (1 to 8 channels): timeline, summary and plots.
+    #[command(allow_negative_numbers = true)]
     Replay {
         /// WAV file (16/24/32-bit integer or 32-bit float).
         file: PathBuf,
-        /// Beacon frequency, Hz.
-        #[arg(long)]
+        /// Beacon frequency, Hz (find it with 'undertone scan').
+        #[arg(long, value_parser = args::above_zero)]
         freq: f64,
         /// Coil-head TOML file (default: the 4-coil reference head, channels lower-along,
         /// lower-across, lower-vertical, upper-along 0.40 m above).
         #[arg(long)]
         head: Option<PathBuf>,
         /// Detection bandwidth, Hz (default: the preset's).
-        #[arg(long)]
+        #[arg(long, value_parser = args::bandwidth)]
         bandwidth: Option<f64>,
-        /// Print one JSON object per readout.
+        /// Height of the lower coil centre above the ground when recorded, m (default: the receiver's).
+        #[arg(long, value_parser = args::finite)]
+        coil_height: Option<f64>,
+        /// Output folder for plots.
+        #[arg(long, short, default_value = "undertone-out/replay")]
+        output: PathBuf,
+        /// Print one JSON object per readout and a last summary object (lengths in metres).
+        #[arg(long)]
+        json: bool,
+        /// Lengths in metres, or depths in feet and inches.
+        #[arg(long, value_enum, default_value = "metric")]
+        units: Units,
+    },
+    /// List the tones in a recording, strongest first, to find an unknown beacon before a replay.
+    Scan {
+        /// WAV file (16/24/32-bit integer or 32-bit float).
+        file: PathBuf,
+        /// Start of the stretch scanned, s.
+        #[arg(long, default_value_t = 0.0, value_parser = args::not_negative)]
+        start: f64,
+        /// Length of the stretch scanned, s (longer finds weaker tones and takes longer).
+        #[arg(long, default_value_t = 10.0, value_parser = args::above_zero)]
+        seconds: f64,
+        /// Print one JSON object per tone.
         #[arg(long)]
         json: bool,
     },
@@ -88,40 +123,49 @@ enum Command {
         /// Scenario TOML file.
         scenario: PathBuf,
         /// Bandwidths to try, Hz, comma-separated.
-        #[arg(long, value_delimiter = ',', required = true)]
+        #[arg(long, value_delimiter = ',', required = true, value_parser = args::bandwidth)]
         bandwidths: Vec<f64>,
         /// Trials (noise seeds) per bandwidth; below 20 the 95 % intervals are too wide to decide much.
-        #[arg(long, default_value_t = undertone_sim::sweep::DEFAULT_TRIALS)]
+        #[arg(long, default_value_t = undertone_sim::sweep::DEFAULT_TRIALS, value_parser = args::trials)]
         trials: usize,
         /// Seed of the trials' noise seeds (default: the scenario's seed).
         #[arg(long)]
         seed: Option<u64>,
         /// Largest acceptable peak lag, m.
-        #[arg(long, default_value_t = 0.2)]
+        #[arg(long, default_value_t = 0.2, value_parser = args::above_zero)]
         max_lag_m: f64,
         /// Output folder for the CSV and plots.
         #[arg(long, short, default_value = "undertone-out/sweep")]
         output: PathBuf,
+        /// Lengths in metres or feet.
+        #[arg(long, value_enum, default_value = "metric")]
+        units: Units,
     },
     /// Error of every depth method over depth, offset, pitch and gain mismatch.
     Depthcheck {
         /// Built-in head to read with.
         #[arg(long, value_enum, default_value = "reference4")]
-        head: HeadChoice,
+        head: HeadKind,
         /// SNR of the strongest coil in the noisy case, dB.
-        #[arg(long, default_value_t = 40.0)]
+        #[arg(long, default_value_t = 40.0, value_parser = args::depthcheck_snr)]
         snr_db: f64,
         /// Output folder for the CSV and heat maps.
         #[arg(long, short, default_value = "undertone-out/depthcheck")]
         output: PathBuf,
+        /// Depths in metres or in feet and inches.
+        #[arg(long, value_enum, default_value = "metric")]
+        units: Units,
     },
-    /// Heat maps of the sonde's field over the ground with the tracks drawn in.
+    /// Heat maps of the sonde's field over the ground with the tracks and the detection range drawn in.
     Map {
         /// Scenario TOML file.
         scenario: PathBuf,
         /// Output folder for the maps.
         #[arg(long, short, default_value = "undertone-out/map")]
         output: PathBuf,
+        /// Lengths in metres or feet.
+        #[arg(long, value_enum, default_value = "metric")]
+        units: Units,
     },
     /// The receiver in closed loop: a simulated operator, from random starts, does only what
     /// the receiver tells them until it says "over" and shows a depth.
@@ -165,16 +209,16 @@ fn io(e: std::io::Error) -> SimError {
 
 fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
     match cmd {
-        Command::Demo { output, seed, json, screens } => {
-            undertone_sim::walk::walk(&Scenario::demo(), &output, json, seed, out).map(|_| ())?;
+        Command::Demo { output, seed, json, screens, units } => {
+            undertone_sim::walk::walk(&Scenario::demo(), &output, ShowOptions { json, seed, units }, out).map(|_| ())?;
             if screens && !json {
                 undertone_sim::screens::walk(&Scenario::demo(), &output, seed, out)?;
             }
             Ok(())
         }
-        Command::Walk { scenario, output, seed, json, screens } => {
+        Command::Walk { scenario, output, seed, json, screens, units } => {
             let sc = Scenario::load(&scenario)?;
-            undertone_sim::walk::walk(&sc, &output, json, seed, out).map(|_| ())?;
+            undertone_sim::walk::walk(&sc, &output, ShowOptions { json, seed, units }, out).map(|_| ())?;
             if screens && !json {
                 undertone_sim::screens::walk(&sc, &output, seed, out)?;
             }
@@ -186,20 +230,19 @@ fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
             let n = undertone_sim::wav::write(&output, &mut s, format)?;
             writeln!(out, "wrote {} ({} channels, {} frames, {:.0} Hz, {:?})", output.display(), s.coils, n, s.fs, format).map_err(io)
         }
-        Command::Replay { file, freq, head, bandwidth, json } => {
-            let rows = undertone_sim::replay::replay(
-                &file,
-                &undertone_sim::replay::ReplayOptions { freq_hz: freq, head: head.as_deref(), bandwidth_hz: bandwidth },
-            )?;
-            undertone_sim::replay::print(out, &rows, json)
+        Command::Replay { file, freq, head, bandwidth, coil_height, output, json, units } => {
+            let opt = undertone_sim::replay::ReplayOptions {
+                freq_hz: freq,
+                head: head.as_deref(),
+                bandwidth_hz: bandwidth,
+                coil_height_m: coil_height,
+            };
+            undertone_sim::replay::command(&file, &opt, &output, ShowOptions { json, seed: None, units }, out).map(|_| ())
         }
-        Command::Sweep { scenario, bandwidths, trials, seed, max_lag_m, output } => {
-            if trials == 0 || trials > 10_000 {
-                return Err(SimError::Arg { name: "--trials".into(), msg: format!("{trials} is not allowed (allowed 1 to 10000)") });
-            }
-            if !(max_lag_m.is_finite() && max_lag_m > 0.0) {
-                return Err(SimError::Arg { name: "--max-lag-m".into(), msg: format!("{max_lag_m} is not allowed (allowed above 0)") });
-            }
+        Command::Scan { file, start, seconds, json } => {
+            undertone_sim::scan::command(&file, undertone_sim::scan::ScanOptions { start_s: start, seconds }, json, out)
+        }
+        Command::Sweep { scenario, bandwidths, trials, seed, max_lag_m, output, units } => {
             let sc = Scenario::load(&scenario)?;
             let spec = undertone_sim::sweep::SweepSpec {
                 bandwidths: &bandwidths,
@@ -208,17 +251,19 @@ fn run(cmd: Command, out: &mut dyn Write) -> Result<()> {
                 max_lag_m,
                 progress: std::io::stderr().is_terminal(),
             };
-            undertone_sim::commands::sweep(&sc, &spec, &output, out)
+            undertone_sim::commands::sweep(&sc, &spec, &output, units, out)
         }
-        Command::Depthcheck { head, snr_db, output } => {
-            if !(snr_db.is_finite() && (10.0..=120.0).contains(&snr_db)) {
-                return Err(SimError::Arg { name: "--snr-db".into(), msg: format!("{snr_db} is not allowed (allowed 10 to 120)") });
-            }
-            undertone_sim::commands::depthcheck(head, snr_db, &output, out)
-        }
-        Command::Map { scenario, output } => {
+        Command::Depthcheck { head, snr_db, output, units } => undertone_sim::commands::depthcheck(head, snr_db, &output, units, out),
+        Command::Map { scenario, output, units } => {
             let sc = Scenario::load(&scenario)?;
-            let files = undertone_sim::map::map(&sc, &output)?;
+            let (files, range) = undertone_sim::map::map(&sc, &output)?;
+            writeln!(
+                out,
+                "detection range: {} from the point over the sonde (the best coil reads at least {} dB SNR all round, by the field model and the scenario's sensor noise; mains and other tones left out)",
+                units.dist(range),
+                undertone_sim::range::RANGE_SNR_DB
+            )
+            .map_err(io)?;
             writeln!(out, "maps:").map_err(io)?;
             for f in files {
                 writeln!(out, "  {}", f.display()).map_err(io)?;

@@ -3,9 +3,68 @@
 //! Each segment is a path walked at constant speed: a straight walk, a circle
 //! (tangent heading), a raster of back-and-forth lines, or standing still.
 //! Heading wobble is a deterministic sum of two slow sines whose phases come
-//! from the scenario seed.
+//! from the scenario seed. Segment timing (start and duration of each
+//! segment) is computed here once, in [`Motion`]; reports ask it which
+//! segment a time falls in and how far along its path the head was.
 
-use crate::scenario::MotionSpec;
+use serde::{Deserialize, Serialize};
+
+/// One segment of receiver motion.
+#[derive(Clone, Debug, Deserialize, Serialize, PartialEq)]
+#[serde(deny_unknown_fields, tag = "kind", rename_all = "lowercase")]
+pub enum MotionSpec {
+    /// Straight walk.
+    Walk {
+        /// Start east, m.
+        from: [f64; 2],
+        /// End, m.
+        to: [f64; 2],
+        /// Speed, m/s.
+        speed_m_s: f64,
+        /// Handle heading, degrees from east (default: the walking direction).
+        heading_deg: Option<f64>,
+        /// Heading wobble amplitude, degrees.
+        #[serde(default)]
+        wobble_deg: f64,
+    },
+    /// A circle around a point, closing in from a distance.
+    Circle {
+        /// Centre, m.
+        centre: [f64; 2],
+        /// Radius, m.
+        radius_m: f64,
+        /// Speed, m/s.
+        speed_m_s: f64,
+        /// Turns.
+        #[serde(default = "one_f")]
+        turns: f64,
+    },
+    /// Back-and-forth lines over a rectangle.
+    Raster {
+        /// Lower-left corner, m.
+        from: [f64; 2],
+        /// Upper-right corner, m.
+        to: [f64; 2],
+        /// Line spacing, m.
+        spacing_m: f64,
+        /// Speed, m/s.
+        speed_m_s: f64,
+    },
+    /// Standing still.
+    Still {
+        /// Position, m.
+        at: [f64; 2],
+        /// Handle heading, degrees from east.
+        #[serde(default)]
+        heading_deg: f64,
+        /// Duration, s.
+        duration_s: f64,
+    },
+}
+
+fn one_f() -> f64 {
+    1.0
+}
 
 /// Position (east, north) in m and handle heading (rad from east towards north).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -69,8 +128,54 @@ fn along_polyline(pts: &[[f64; 2]], s: f64) -> ([f64; 2], f64) {
 /// The whole motion of a scenario.
 #[derive(Clone, Debug)]
 pub struct Motion {
-    segments: Vec<(MotionSpec, f64)>,
+    segments: Vec<Segment>,
     wobble_phase: [f64; 2],
+}
+
+/// One segment with its timing.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Segment {
+    /// What the segment is.
+    pub spec: MotionSpec,
+    /// When it starts, s from the start of the run.
+    pub start_s: f64,
+    /// How long it lasts, s.
+    pub duration_s: f64,
+}
+
+impl Segment {
+    /// True for a segment in which the head moves (anything but standing still).
+    pub fn moves(&self) -> bool {
+        !matches!(self.spec, MotionSpec::Still { .. })
+    }
+
+    /// Distance walked along the segment's path at time `t_s` (clamped to the segment), m;
+    /// standing still, the time into the segment, s.
+    pub fn progress(&self, t_s: f64) -> f64 {
+        let tl = (t_s - self.start_s).clamp(0.0, self.duration_s);
+        match &self.spec {
+            MotionSpec::Walk { speed_m_s, .. } | MotionSpec::Circle { speed_m_s, .. } | MotionSpec::Raster { speed_m_s, .. } => {
+                tl * speed_m_s
+            }
+            MotionSpec::Still { .. } => tl,
+        }
+    }
+
+    /// One line naming the segment for plots and reports, e.g. `walk (-4, 0) m to (4, 0) m`.
+    pub fn describe(&self, len: &dyn Fn(f64) -> String) -> String {
+        let p = |a: &[f64; 2]| format!("({}, {})", len(a[0]), len(a[1]));
+        match &self.spec {
+            MotionSpec::Walk { from, to, .. } => format!("walk {} to {}", p(from), p(to)),
+            MotionSpec::Circle { centre, radius_m, .. } => format!("circle of radius {} about {}", len(*radius_m), p(centre)),
+            MotionSpec::Raster { from, to, .. } => format!("raster {} to {}", p(from), p(to)),
+            MotionSpec::Still { at, .. } => format!("standing at {}", p(at)),
+        }
+    }
+}
+
+/// Total duration of `specs` walked in order, s.
+pub fn total_duration_s(specs: &[MotionSpec]) -> f64 {
+    specs.iter().map(segment_duration).sum()
 }
 
 impl Motion {
@@ -81,24 +186,40 @@ impl Motion {
                 / (1u64 << 53) as f64
                 * std::f64::consts::TAU
         };
-        Self { segments: specs.iter().map(|m| (m.clone(), segment_duration(m))).collect(), wobble_phase: [ph(1), ph(2)] }
+        let mut start_s = 0.0;
+        let segments = specs
+            .iter()
+            .map(|m| {
+                let duration_s = segment_duration(m);
+                let s = Segment { spec: m.clone(), start_s, duration_s };
+                start_s += duration_s;
+                s
+            })
+            .collect();
+        Self { segments, wobble_phase: [ph(1), ph(2)] }
     }
 
     /// Total duration, s.
     pub fn duration_s(&self) -> f64 {
-        self.segments.iter().map(|s| s.1).sum()
+        self.segments.iter().map(|s| s.duration_s).sum()
+    }
+
+    /// The segments with their timing, in order.
+    pub fn segments(&self) -> &[Segment] {
+        &self.segments
+    }
+
+    /// Index of the segment time `t_s` falls in (before the start: the first; after the end: the last).
+    pub fn segment_at(&self, t_s: f64) -> usize {
+        self.segments.iter().position(|s| t_s < s.start_s + s.duration_s).unwrap_or(self.segments.len().saturating_sub(1))
     }
 
     /// Pose at time t (s); after the end, the last pose.
     pub fn pose(&self, t: f64) -> Pose {
-        let mut t0 = 0.0;
-        for (i, (m, d)) in self.segments.iter().enumerate() {
-            if t < t0 + d || i + 1 == self.segments.len() {
-                return self.in_segment(m, (t - t0).clamp(0.0, *d), t);
-            }
-            t0 += d;
+        match self.segments.get(self.segment_at(t)) {
+            Some(s) => self.in_segment(&s.spec, (t - s.start_s).clamp(0.0, s.duration_s), t),
+            None => Pose { x_m: 0.0, y_m: 0.0, heading_rad: 0.0 },
         }
-        Pose { x_m: 0.0, y_m: 0.0, heading_rad: 0.0 }
     }
 
     fn in_segment(&self, m: &MotionSpec, tl: f64, t: f64) -> Pose {

@@ -7,7 +7,7 @@ use crate::synth::{Synth, Truth};
 use serde::Serialize;
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::locate::depth::DepthEstimate;
-use undertone_dsp::{Beacon, DetectorKind, DetectorSettings, Head, Readout, Receiver, ReceiverSettings, Window};
+use undertone_dsp::{DetectorSettings, Head, Readout, Receiver, ReceiverSettings};
 
 /// A depth estimate as printed: value and σ, or the reason it is withheld.
 #[derive(Clone, Copy, Debug, Serialize, PartialEq)]
@@ -36,11 +36,27 @@ pub struct Row {
     pub t_s: f64,
     /// Time of the latest sample used (when the readout is shown), s.
     pub t_latest_s: f64,
-    /// Horizontal field at the lower coils (reading units: T in a simulation, full scale in a replay).
+    /// Horizontal field at the lower coils in reading units (T in a simulation,
+    /// full scale in a replay); in JSON as [`Row::field_nt`] or [`Row::level_fs`].
+    #[serde(skip)]
     pub strength: f64,
-    /// 20·log10(strength).
+    /// 20·log10(strength); in JSON as [`Row::field_db_nt`] or [`Row::level_dbfs`].
+    #[serde(skip)]
     pub strength_db: f64,
-    /// SNR of the lower coils' field magnitude over its noise, dB.
+    /// Horizontal field at the lower coils, nT (when the scale is known: a simulation).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub field_nt: Option<f64>,
+    /// The same in dB re 1 nT.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub field_db_nt: Option<f64>,
+    /// Horizontal tone amplitude at the lower coils as a fraction of the converter's full
+    /// scale (when only codes are known: a replay).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub level_fs: Option<f64>,
+    /// The same in dB re full scale.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub level_dbfs: Option<f64>,
+    /// SNR of the lower triad (the lower x, y and z coils together, each over its noise), dB.
     pub snr_db: f64,
     /// Tone present: "good", "weak" or "no-signal".
     pub signal: &'static str,
@@ -154,6 +170,10 @@ pub struct TruthRow {
     pub ahead_shown_m: f64,
     /// Sonde left of the handle when the readout is shown, m.
     pub left_shown_m: f64,
+    /// Receiver (east, north) when the readout is shown, m.
+    pub at_shown_m: [f64; 2],
+    /// Sonde (east, north, up) when the readout is shown, m.
+    pub sonde_shown_m: [f64; 3],
 }
 
 impl From<Truth> for TruthRow {
@@ -170,6 +190,8 @@ impl From<Truth> for TruthRow {
             sonde_m: t.sonde_m,
             ahead_shown_m: t.ahead_m,
             left_shown_m: t.left_m,
+            at_shown_m: [t.pose.x_m, t.pose.y_m],
+            sonde_shown_m: t.sonde_m,
         }
     }
 }
@@ -179,11 +201,49 @@ pub fn truth_row(at_data: Truth, at_shown: Truth) -> TruthRow {
     let mut t: TruthRow = at_data.into();
     t.ahead_shown_m = at_shown.ahead_m;
     t.left_shown_m = at_shown.left_m;
+    t.at_shown_m = [at_shown.pose.x_m, at_shown.pose.y_m];
+    t.sonde_shown_m = at_shown.sonde_m;
     t
 }
 
-/// Convert a readout of any head size.
-pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>) -> Row {
+/// What a readout's strength is measured against.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+pub enum Reference {
+    /// Readings in tesla (a simulation): strength in nT, dB re 1 nT.
+    Tesla,
+    /// Readings in fractions of the converter's full scale (a replay): dB re full scale.
+    FullScale,
+}
+
+impl Reference {
+    /// The unit of `strength_db` after [`Reference::db`], as printed.
+    pub fn db_unit(self) -> &'static str {
+        match self {
+            Reference::Tesla => "dB re 1 nT",
+            Reference::FullScale => "dB re full scale",
+        }
+    }
+
+    /// A level in reading units' dB (20·log10 of T or of full scale) in this reference's dB.
+    pub fn db(self, reading_db: f64) -> f64 {
+        match self {
+            Reference::Tesla => reading_db + 180.0,
+            Reference::FullScale => reading_db,
+        }
+    }
+
+    /// Which reference a row was made with.
+    pub fn of(row: &Row) -> Self {
+        if row.field_nt.is_some() {
+            Reference::Tesla
+        } else {
+            Reference::FullScale
+        }
+    }
+}
+
+/// Convert a readout of any head size; `reference` says what its readings are in.
+pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>, reference: Reference) -> Row {
     let g = &r.guidance;
     let f64o = |v: Option<f32>| v.map(|v| v as f64);
     let shown = r.depth;
@@ -195,6 +255,10 @@ pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>) -> 
         t_latest_s: r.sample_index as f64 / fs,
         strength: r.strength as f64,
         strength_db: r.strength_db as f64,
+        field_nt: (reference == Reference::Tesla).then_some(r.strength as f64 * 1e9),
+        field_db_nt: (reference == Reference::Tesla).then_some(Reference::Tesla.db(r.strength_db as f64)),
+        level_fs: (reference == Reference::FullScale).then_some(r.strength as f64),
+        level_dbfs: (reference == Reference::FullScale).then_some(r.strength_db as f64),
         snr_db: r.snr_db as f64,
         signal: r.signal.name(),
         bearing_deg: r.bearing_deg as f64,
@@ -241,24 +305,7 @@ pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>) -> 
 
 /// Detector settings from a scenario.
 pub fn detector_settings(sc: &Scenario) -> DetectorSettings {
-    let d = &sc.detector;
-    let f = d.freq_hz.unwrap_or(sc.sonde.freq_hz) as f32;
-    let kind = if d.kind == "block" {
-        let window = match d.window.as_str() {
-            "rectangular" => Window::Rectangular,
-            "hann" => Window::Hann,
-            _ => Window::BlackmanHarris4,
-        };
-        DetectorKind::Block { window }
-    } else {
-        DetectorKind::LockIn { poles: d.poles }
-    };
-    let mut s = DetectorSettings::new(sc.receiver.sample_rate_hz as f32, Beacon::from_hz(f)).with_kind(kind);
-    if let Some(b) = d.bandwidth_hz {
-        s.bandwidth_hz = b as f32;
-    }
-    s.readout_rate_hz = d.readout_hz as f32;
-    s
+    sc.detector_settings()
 }
 
 /// Results of a simulated run.
@@ -277,11 +324,17 @@ pub struct SimRun {
 
 /// Run a scenario (optionally with another noise seed and bandwidth).
 pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> Result<SimRun> {
+    simulate_shown(sc, seed, bandwidth_hz, false)
+}
+
+/// As [`simulate`], with a progress bar on a terminal's stderr when `progress` and the run is long.
+pub fn simulate_shown(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>, progress: bool) -> Result<SimRun> {
     let mut rows = Vec::new();
     let mut views = Vec::new();
+    let mut bar = progress.then(|| crate::progress::Progress::new((sc.duration_s() * sc.receiver.sample_rate_hz) as u64, "samples"));
     let mut run = match sc.coils() {
-        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, &mut |r| rows.push(r), Some(&mut views))?,
-        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, &mut |r| rows.push(r), Some(&mut views))?,
+        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, &mut |r| rows.push(r), Some(&mut views), bar.as_mut())?,
+        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, &mut |r| rows.push(r), Some(&mut views), bar.as_mut())?,
     };
     run.rows = rows;
     run.views = views;
@@ -292,8 +345,8 @@ pub fn simulate(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>) -> 
 /// none (the returned run's `rows` is empty): memory stays flat however long the run.
 pub fn simulate_each(sc: &Scenario, seed: Option<u64>, bandwidth_hz: Option<f32>, on: &mut dyn FnMut(Row)) -> Result<SimRun> {
     match sc.coils() {
-        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, on, None),
-        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, on, None),
+        6 => simulate_n::<6>(sc, Head::triads6(), seed, bandwidth_hz, on, None, None),
+        _ => simulate_n::<4>(sc, Head::reference4(), seed, bandwidth_hz, on, None, None),
     }
 }
 
@@ -324,6 +377,7 @@ fn simulate_n<const N: usize>(
     bw: Option<f32>,
     on: &mut dyn FnMut(Row),
     mut views: Option<&mut Vec<undertone_firmware::view::View>>,
+    mut progress: Option<&mut crate::progress::Progress>,
 ) -> Result<SimRun> {
     let s = receiver_settings(sc, head, bw);
     let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
@@ -335,24 +389,27 @@ fn simulate_n<const N: usize>(
         if got == 0 {
             break;
         }
+        if let Some(p) = progress.as_mut() {
+            p.set(synth.position());
+        }
         rx.push_codes_block(&block[..got], |r| {
             let shown = r.sample_index as f64 / synth.fs;
             if let Some(v) = views.as_mut() {
                 v.push(undertone_firmware::view::View::from_readout(&r, &ctx));
             }
-            on(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown)))))
+            on(row(&r, synth.fs, Some(truth_row(synth.truth(r.t_s.max(0.0)), synth.truth(shown))), Reference::Tesla))
         });
     }
     Ok(SimRun { rows: Vec::new(), info: *rx.detector_info(), mains: rx.detector().mains(), samples: synth.position(), views: Vec::new() })
 }
 
 /// Run the receiver on recorded frames (codes), no truth.
-pub fn replay_codes<const N: usize>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = [i32; N]>) -> Result<Vec<Row>> {
+pub fn replay_codes<const N: usize>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = [i32; N]>) -> Result<SimRun> {
     replay_with(settings, frames, |rx, f| rx.push_codes(f))
 }
 
 /// Run the receiver on recorded f32 frames, no truth.
-pub fn replay_floats<const N: usize>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = [f32; N]>) -> Result<Vec<Row>> {
+pub fn replay_floats<const N: usize>(settings: ReceiverSettings<N>, frames: impl Iterator<Item = [f32; N]>) -> Result<SimRun> {
     replay_with(settings, frames, |rx, f| rx.push(f))
 }
 
@@ -360,14 +417,16 @@ fn replay_with<const N: usize, F>(
     settings: ReceiverSettings<N>,
     frames: impl Iterator<Item = F>,
     mut push: impl FnMut(&mut Receiver<N>, &F) -> Option<Readout<N>>,
-) -> Result<Vec<Row>> {
+) -> Result<SimRun> {
     let fs = settings.detector.sample_rate_hz as f64;
     let mut rx = Receiver::new(settings).map_err(|err| SimError::Config { context: "replay".into(), err })?;
     let mut rows = Vec::new();
+    let mut samples = 0u64;
     for f in frames {
+        samples += 1;
         if let Some(r) = push(&mut rx, &f) {
-            rows.push(row(&r, fs, None));
+            rows.push(row(&r, fs, None, Reference::FullScale));
         }
     }
-    Ok(rows)
+    Ok(SimRun { rows, info: *rx.detector_info(), mains: rx.detector().mains(), samples, views: Vec::new() })
 }

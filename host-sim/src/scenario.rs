@@ -1,7 +1,13 @@
 //! Scenario files: what is buried, what interferes, the receiver, and how it moves.
 //!
-//! TOML read with serde (`deny_unknown_fields`). Every value is validated with
-//! an error naming the field's path, the value and the allowed range. Lengths in
+//! TOML read with serde (`deny_unknown_fields`) into typed values: the head,
+//! the detector kind and the window are enums, so an unknown name is refused
+//! at parse time with the allowed names. Every value is validated with an
+//! error naming the field's path, the value and the allowed range; what the
+//! receiver accepts (sample rate, beacon frequency, bandwidth, readout rate,
+//! poles, block length, coil height) is checked by the DSP's own settings
+//! (`validate()` and the detector's build step), so those limits live in one
+//! place. Lengths in
 //! metres, angles in degrees (converted to radians at the edge), fields in tesla,
 //! moments in A·m², frequencies in Hz.
 //!
@@ -9,8 +15,12 @@
 //! Depths are positive numbers below the surface.
 
 use crate::error::{Result, SimError};
+pub use crate::motion::MotionSpec;
 use serde::{Deserialize, Serialize};
 use std::path::Path;
+use undertone_dsp::detect::input::InputScale;
+use undertone_dsp::detect::settings::{MAX_FREQ_FRACTION, MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
+use undertone_dsp::{Beacon, ConfigError, Detector, DetectorKind, DetectorSettings, Head, LocatorSettings, Param, Window};
 
 /// The built-in demo scenario (a walk along and then across a buried sonde).
 pub const DEMO_TOML: &str = include_str!("../examples/demo.toml");
@@ -58,9 +68,9 @@ fn one() -> u64 {
 #[derive(Clone, Debug, Deserialize, Serialize, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct ReceiverSpec {
-    /// "reference4" or "triads6".
-    #[serde(default = "default_head")]
-    pub head: String,
+    /// The coil head.
+    #[serde(default)]
+    pub head: HeadKind,
     /// ADC sample rate, Hz.
     pub sample_rate_hz: f64,
     /// ADC resolution, bits (12 to 32).
@@ -83,8 +93,67 @@ pub struct ReceiverSpec {
     pub assume_conductivity_s_per_m: f64,
 }
 
-fn default_head() -> String {
-    "reference4".into()
+/// The built-in coil heads.
+#[derive(Clone, Copy, Debug, Default, Deserialize, Serialize, PartialEq, Eq, clap::ValueEnum)]
+#[serde(rename_all = "lowercase")]
+pub enum HeadKind {
+    /// Four coils: lower along, across and vertical, upper along 0.40 m above.
+    #[default]
+    Reference4,
+    /// Two x/y/z triads 0.40 m apart.
+    Triads6,
+}
+
+impl HeadKind {
+    /// Number of coils.
+    pub fn coils(self) -> usize {
+        match self {
+            HeadKind::Reference4 => 4,
+            HeadKind::Triads6 => 6,
+        }
+    }
+
+    /// The name as written in scenario files and on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            HeadKind::Reference4 => "reference4",
+            HeadKind::Triads6 => "triads6",
+        }
+    }
+}
+
+/// Which detector turns samples into phasors.
+#[derive(Clone, Copy, Debug, Default, Deserialize, Serialize, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum DetectorChoice {
+    /// Continuous lock-in with `poles` low-pass poles.
+    #[default]
+    Lockin,
+    /// Windowed Goertzel over overlapping blocks, with `window`.
+    Block,
+}
+
+/// Taper of the block detector.
+#[derive(Clone, Copy, Debug, Default, Deserialize, Serialize, PartialEq, Eq)]
+#[serde(rename_all = "kebab-case")]
+pub enum WindowChoice {
+    /// No taper.
+    Rectangular,
+    /// Hann.
+    Hann,
+    /// 4-term Blackman–Harris.
+    #[default]
+    BlackmanHarris,
+}
+
+impl From<WindowChoice> for Window {
+    fn from(w: WindowChoice) -> Self {
+        match w {
+            WindowChoice::Rectangular => Window::Rectangular,
+            WindowChoice::Hann => Window::Hann,
+            WindowChoice::BlackmanHarris => Window::BlackmanHarris4,
+        }
+    }
 }
 fn default_bits() -> u32 {
     24
@@ -99,15 +168,15 @@ fn default_height() -> f64 {
 pub struct DetectorSpec {
     /// Frequency the receiver is set to, Hz (default: the sonde's nominal frequency).
     pub freq_hz: Option<f64>,
-    /// "lockin" or "block".
-    #[serde(default = "default_kind")]
-    pub kind: String,
+    /// Detector kind: `lockin` or `block`.
+    #[serde(default)]
+    pub kind: DetectorChoice,
     /// Lock-in poles.
     #[serde(default = "default_poles")]
     pub poles: u8,
-    /// Block window: "rectangular", "hann", "blackman-harris".
-    #[serde(default = "default_window")]
-    pub window: String,
+    /// Block window: `rectangular`, `hann` or `blackman-harris`.
+    #[serde(default)]
+    pub window: WindowChoice,
     /// Detection bandwidth, Hz (default: the preset's).
     pub bandwidth_hz: Option<f64>,
     /// Readouts per second.
@@ -119,23 +188,17 @@ impl Default for DetectorSpec {
     fn default() -> Self {
         Self {
             freq_hz: None,
-            kind: default_kind(),
+            kind: DetectorChoice::default(),
             poles: default_poles(),
-            window: default_window(),
+            window: WindowChoice::default(),
             bandwidth_hz: None,
             readout_hz: default_rate(),
         }
     }
 }
 
-fn default_kind() -> String {
-    "lockin".into()
-}
 fn default_poles() -> u8 {
     4
-}
-fn default_window() -> String {
-    "blackman-harris".into()
 }
 fn default_rate() -> f64 {
     20.0
@@ -239,68 +302,27 @@ pub struct SoilSpec {
     pub conductivity_s_per_m: f64,
 }
 
-/// One segment of receiver motion.
-#[derive(Clone, Debug, Deserialize, Serialize, PartialEq)]
-#[serde(deny_unknown_fields, tag = "kind", rename_all = "lowercase")]
-pub enum MotionSpec {
-    /// Straight walk.
-    Walk {
-        /// Start east, m.
-        from: [f64; 2],
-        /// End, m.
-        to: [f64; 2],
-        /// Speed, m/s.
-        speed_m_s: f64,
-        /// Handle heading, degrees from east (default: the walking direction).
-        heading_deg: Option<f64>,
-        /// Heading wobble amplitude, degrees.
-        #[serde(default)]
-        wobble_deg: f64,
-    },
-    /// A circle around a point, closing in from a distance.
-    Circle {
-        /// Centre, m.
-        centre: [f64; 2],
-        /// Radius, m.
-        radius_m: f64,
-        /// Speed, m/s.
-        speed_m_s: f64,
-        /// Turns.
-        #[serde(default = "one_f")]
-        turns: f64,
-    },
-    /// Back-and-forth lines over a rectangle.
-    Raster {
-        /// Lower-left corner, m.
-        from: [f64; 2],
-        /// Upper-right corner, m.
-        to: [f64; 2],
-        /// Line spacing, m.
-        spacing_m: f64,
-        /// Speed, m/s.
-        speed_m_s: f64,
-    },
-    /// Standing still.
-    Still {
-        /// Position, m.
-        at: [f64; 2],
-        /// Handle heading, degrees from east.
-        #[serde(default)]
-        heading_deg: f64,
-        /// Duration, s.
-        duration_s: f64,
-    },
-}
-
-fn one_f() -> f64 {
-    1.0
-}
-
 fn check(path: &str, field: &str, v: f64, lo: f64, hi: f64) -> Result<()> {
     if v.is_finite() && v >= lo && v <= hi {
         Ok(())
     } else {
         Err(SimError::value(path, field, v, format!("{lo} to {hi}")))
+    }
+}
+
+/// A tone the simulator can synthesise: above 0 and below the DSP's limit of
+/// [`MAX_FREQ_FRACTION`] of the sample rate.
+fn check_tone(path: &str, field: &str, f: f64, fs: f64) -> Result<()> {
+    let hi = MAX_FREQ_FRACTION as f64 * fs;
+    if f.is_finite() && f > 0.0 && f < hi {
+        Ok(())
+    } else {
+        Err(SimError::value(
+            path,
+            field,
+            f,
+            format!("above 0 Hz and below {} Hz ({MAX_FREQ_FRACTION} of the sample rate)", crate::units::num(hi)),
+        ))
     }
 }
 
@@ -326,25 +348,71 @@ impl Scenario {
 
     /// Number of coils of the head.
     pub fn coils(&self) -> usize {
-        if self.receiver.head == "triads6" {
-            6
-        } else {
-            4
-        }
+        self.receiver.head.coils()
     }
 
     /// Total duration of the motion, s.
     pub fn duration_s(&self) -> f64 {
-        self.motion.iter().map(crate::motion::segment_duration).sum()
+        crate::motion::total_duration_s(&self.motion)
+    }
+
+    /// The detector settings the scenario asks for (checked by [`Scenario::validate`]).
+    pub fn detector_settings(&self) -> DetectorSettings {
+        let d = &self.detector;
+        let f = d.freq_hz.unwrap_or(self.sonde.freq_hz) as f32;
+        let kind = match d.kind {
+            DetectorChoice::Block => DetectorKind::Block { window: d.window.into() },
+            DetectorChoice::Lockin => DetectorKind::LockIn { poles: d.poles },
+        };
+        let mut s = DetectorSettings::new(self.receiver.sample_rate_hz as f32, Beacon::from_hz(f)).with_kind(kind);
+        if let Some(b) = d.bandwidth_hz {
+            s.bandwidth_hz = b as f32;
+        }
+        s.readout_rate_hz = d.readout_hz as f32;
+        s
+    }
+
+    /// The scenario's field for a setting the receiver refused.
+    fn field_of(&self, param: Param) -> &'static str {
+        match param {
+            Param::SampleRate => "receiver.sample_rate_hz",
+            Param::BeaconFrequency if self.detector.freq_hz.is_some() => "detector.freq_hz",
+            Param::BeaconFrequency => "sonde.freq_hz",
+            Param::Bandwidth if self.detector.bandwidth_hz.is_some() => "detector.bandwidth_hz",
+            Param::Bandwidth => "detector.bandwidth_hz (the default for this beacon and detector)",
+            Param::BlockLength => "detector.bandwidth_hz (the block it needs)",
+            Param::ReadoutRate => "detector.readout_hz",
+            Param::Poles => "detector.poles",
+            Param::CoilHeight => "receiver.height_m",
+            _ => "receiver",
+        }
+    }
+
+    /// What the receiver itself accepts: the detector settings (their
+    /// `validate()` and the detector's build step) and the coil height (the
+    /// locator settings' `validate()`).
+    fn validate_receiver(&self, p: &str) -> Result<()> {
+        let det = self.detector_settings();
+        let loc = LocatorSettings { coil_height_m: self.receiver.height_m as f32, ..Default::default() };
+        let checked = det
+            .validate()
+            .and_then(|_| Detector::<1>::new(&det, InputScale::unity(self.receiver.adc_bits)).map(|_| ()))
+            .and_then(|_| loc.validate())
+            .and_then(|_| match self.receiver.head {
+                HeadKind::Reference4 => Head::reference4().validate(),
+                HeadKind::Triads6 => Head::triads6().validate(),
+            });
+        checked.map_err(|e: ConfigError| {
+            SimError::value(p, self.field_of(e.param), crate::units::num(e.value as f64), crate::error::allowed(&e))
+        })
     }
 
     /// Check every value.
     pub fn validate(&self, p: &str) -> Result<()> {
         let r = &self.receiver;
-        if r.head != "reference4" && r.head != "triads6" {
-            return Err(SimError::value(p, "receiver.head", format!("\"{}\"", r.head), "\"reference4\" or \"triads6\""));
-        }
-        check(p, "receiver.sample_rate_hz", r.sample_rate_hz, 4_000.0, 250_000.0)?;
+        // The sample rate first (the DSP's limits): the frequency limits below depend on it.
+        ConfigError::check(Param::SampleRate, r.sample_rate_hz as f32, MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ)
+            .map_err(|e| SimError::value(p, "receiver.sample_rate_hz", crate::units::num(r.sample_rate_hz), crate::error::allowed(&e)))?;
         check(p, "receiver.adc_bits", r.adc_bits as f64, 12.0, 32.0)?;
         check(p, "receiver.full_scale_t", r.full_scale_t, 1e-12, 1e-2)?;
         if r.gain_mismatch.len() > self.coils() {
@@ -359,31 +427,10 @@ impl Scenario {
             check(p, &format!("receiver.gain_mismatch[{i}]"), *g, -0.5, 0.5)?;
         }
         check(p, "receiver.skew_s", r.skew_s, 0.0, 1e-3)?;
-        check(p, "receiver.height_m", r.height_m, 0.0, 2.0)?;
         check(p, "receiver.assume_conductivity_s_per_m", r.assume_conductivity_s_per_m, 0.0, 10.0)?;
-        let d = &self.detector;
         let fs = r.sample_rate_hz;
-        if let Some(f) = d.freq_hz {
-            check(p, "detector.freq_hz", f, 10.0, 0.45 * fs)?;
-        }
-        if d.kind != "lockin" && d.kind != "block" {
-            return Err(SimError::value(p, "detector.kind", format!("\"{}\"", d.kind), "\"lockin\" or \"block\""));
-        }
-        check(p, "detector.poles", d.poles as f64, 1.0, 4.0)?;
-        if !["rectangular", "hann", "blackman-harris"].contains(&d.window.as_str()) {
-            return Err(SimError::value(
-                p,
-                "detector.window",
-                format!("\"{}\"", d.window),
-                "\"rectangular\", \"hann\" or \"blackman-harris\"",
-            ));
-        }
-        if let Some(b) = d.bandwidth_hz {
-            check(p, "detector.bandwidth_hz", b, 0.05, 50.0)?;
-        }
-        check(p, "detector.readout_hz", d.readout_hz, 10.0, 100.0)?;
         let sonde = |name: &str, s: &SondeSpec| -> Result<()> {
-            check(p, &format!("{name}.freq_hz"), s.freq_hz, 10.0, 0.45 * fs)?;
+            check_tone(p, &format!("{name}.freq_hz"), s.freq_hz, fs)?;
             check(p, &format!("{name}.ppm"), s.ppm, -1000.0, 1000.0)?;
             check(p, &format!("{name}.moment_am2"), s.moment_am2, 1e-6, 100.0)?;
             check(p, &format!("{name}.depth_m"), s.depth_m, 0.05, 20.0)?;
@@ -397,8 +444,11 @@ impl Scenario {
         for (i, s) in self.interferer.iter().enumerate() {
             sonde(&format!("interferer[{i}]"), s)?;
         }
+        // The receiver's own limits (sample rate, beacon, bandwidth, readout rate, poles,
+        // block length, coil height), from the DSP's settings.
+        self.validate_receiver(p)?;
         if let Some(l) = &self.line {
-            check(p, "line.freq_hz", l.freq_hz, 10.0, 0.45 * fs)?;
+            check_tone(p, "line.freq_hz", l.freq_hz, fs)?;
             check(p, "line.current_a", l.current_a, 1e-6, 100.0)?;
             check(p, "line.depth_m", l.depth_m, 0.05, 20.0)?;
             check(p, "line.yaw_deg", l.yaw_deg, -360.0, 360.0)?;
@@ -430,59 +480,79 @@ impl Scenario {
             return Err(SimError::value(p, "motion", "none", "at least one [[motion]] segment"));
         }
         for (i, m) in self.motion.iter().enumerate() {
-            let f = |k: &str| format!("motion[{i}].{k}");
-            match m {
-                MotionSpec::Walk { from, to, speed_m_s, heading_deg, wobble_deg } => {
-                    check(p, &f("speed_m_s"), *speed_m_s, 0.01, 5.0)?;
-                    for v in from.iter().chain(to.iter()) {
-                        check(p, &f("from/to"), *v, -1000.0, 1000.0)?;
-                    }
-                    if from == to {
-                        return Err(SimError::value(p, &f("to"), format!("{to:?}"), "a point different from 'from'"));
-                    }
-                    if let Some(h) = heading_deg {
-                        check(p, &f("heading_deg"), *h, -360.0, 360.0)?;
-                    }
-                    check(p, &f("wobble_deg"), *wobble_deg, 0.0, 45.0)?;
-                }
-                MotionSpec::Circle { centre, radius_m, speed_m_s, turns } => {
-                    check(p, &f("radius_m"), *radius_m, 0.1, 100.0)?;
-                    check(p, &f("speed_m_s"), *speed_m_s, 0.01, 5.0)?;
-                    check(p, &f("turns"), *turns, 0.05, 10.0)?;
-                    for v in centre {
-                        check(p, &f("centre"), *v, -1000.0, 1000.0)?;
-                    }
-                }
-                MotionSpec::Raster { from, to, spacing_m, speed_m_s } => {
-                    check(p, &f("spacing_m"), *spacing_m, 0.05, 10.0)?;
-                    check(p, &f("speed_m_s"), *speed_m_s, 0.01, 5.0)?;
-                    for v in from.iter().chain(to.iter()) {
-                        check(p, &f("from/to"), *v, -1000.0, 1000.0)?;
-                    }
-                    if from[0] >= to[0] || from[1] >= to[1] {
-                        return Err(SimError::value(p, &f("to"), format!("{to:?}"), "east and north of 'from'"));
-                    }
-                }
-                MotionSpec::Still { at, heading_deg, duration_s } => {
-                    check(p, &f("duration_s"), *duration_s, 0.1, 3600.0)?;
-                    check(p, &f("heading_deg"), *heading_deg, -360.0, 360.0)?;
-                    for v in at {
-                        check(p, &f("at"), *v, -1000.0, 1000.0)?;
-                    }
-                }
-            }
+            m.validate(p, i)?;
         }
         let dur = self.duration_s();
-        check(p, "motion (total duration, s)", dur, 0.5, 3600.0)?;
+        check(p, "motion (total duration, s)", dur, 0.5, MAX_DURATION_S)?;
         Ok(())
     }
 }
 
+/// Longest run a scenario may ask for, s.
+pub const MAX_DURATION_S: f64 = 3600.0;
+
+impl MotionSpec {
+    /// Check segment `i` of the scenario file `p`.
+    pub fn validate(&self, p: &str, i: usize) -> Result<()> {
+        let f = |k: &str| format!("motion[{i}].{k}");
+        match self {
+            MotionSpec::Walk { from, to, speed_m_s, heading_deg, wobble_deg } => {
+                check(p, &f("speed_m_s"), *speed_m_s, 0.01, 5.0)?;
+                for v in from.iter().chain(to.iter()) {
+                    check(p, &f("from/to"), *v, -1000.0, 1000.0)?;
+                }
+                if from == to {
+                    return Err(SimError::value(p, &f("to"), format!("{to:?}"), "a point different from 'from'"));
+                }
+                if let Some(h) = heading_deg {
+                    check(p, &f("heading_deg"), *h, -360.0, 360.0)?;
+                }
+                check(p, &f("wobble_deg"), *wobble_deg, 0.0, 45.0)
+            }
+            MotionSpec::Circle { centre, radius_m, speed_m_s, turns } => {
+                check(p, &f("radius_m"), *radius_m, 0.1, 100.0)?;
+                check(p, &f("speed_m_s"), *speed_m_s, 0.01, 5.0)?;
+                check(p, &f("turns"), *turns, 0.05, 10.0)?;
+                for v in centre {
+                    check(p, &f("centre"), *v, -1000.0, 1000.0)?;
+                }
+                Ok(())
+            }
+            MotionSpec::Raster { from, to, spacing_m, speed_m_s } => {
+                check(p, &f("spacing_m"), *spacing_m, 0.05, 10.0)?;
+                check(p, &f("speed_m_s"), *speed_m_s, 0.01, 5.0)?;
+                for v in from.iter().chain(to.iter()) {
+                    check(p, &f("from/to"), *v, -1000.0, 1000.0)?;
+                }
+                if from[0] >= to[0] || from[1] >= to[1] {
+                    return Err(SimError::value(p, &f("to"), format!("{to:?}"), "east and north of 'from'"));
+                }
+                Ok(())
+            }
+            MotionSpec::Still { at, heading_deg, duration_s } => {
+                check(p, &f("duration_s"), *duration_s, 0.1, MAX_DURATION_S)?;
+                check(p, &f("heading_deg"), *heading_deg, -360.0, 360.0)?;
+                for v in at {
+                    check(p, &f("at"), *v, -1000.0, 1000.0)?;
+                }
+                Ok(())
+            }
+        }
+    }
+}
+
+/// Where a parse error sits: the line number and the line itself (which names the key).
 fn span_note(text: &str, span: Option<std::ops::Range<usize>>) -> String {
     match span {
         Some(r) => {
-            let line = text[..r.start.min(text.len())].matches('\n').count() + 1;
-            format!(" (line {line})")
+            let at = r.start.min(text.len());
+            let line = text.get(..at).unwrap_or_default().matches('\n').count() + 1;
+            let src = text.lines().nth(line - 1).map(str::trim).unwrap_or_default();
+            if src.is_empty() || src.len() > 80 {
+                format!(" (line {line})")
+            } else {
+                format!(" (line {line}: {src})")
+            }
         }
         None => String::new(),
     }

@@ -34,16 +34,17 @@
 //! output is the same for a given seed whatever the number of threads.
 
 use crate::error::{Result, SimError};
-use crate::motion::segment_duration;
+use crate::motion::{Motion, MotionSpec};
+use crate::progress::PROGRESS_AFTER;
 use crate::run::{simulate_each, Row};
-use crate::scenario::{MotionSpec, Scenario};
+use crate::scenario::Scenario;
 use crate::stats::{trials_to_clear_mean, trials_to_clear_rate, wilson, Interval, Welford};
-use crate::synth::Synth;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use rayon::prelude::*;
 use serde::Serialize;
 use std::sync::atomic::{AtomicBool, Ordering};
-use std::time::{Duration, Instant};
+use std::time::Instant;
+use undertone_dsp::detect::settings::{MAX_BANDWIDTH_HZ, MIN_BANDWIDTH_HZ};
 
 /// Largest false-peak rate a recommended bandwidth may show.
 pub const MAX_FALSE_PEAK_RATE: f64 = 0.1;
@@ -56,8 +57,8 @@ pub const FEW_TRIALS: usize = 20;
 /// Trials per bandwidth when none are given: enough for the intervals to
 /// decide the example scenarios' sweeps (see BENCHMARKS.md for the timing).
 pub const DEFAULT_TRIALS: usize = 100;
-/// The progress bar appears once a sweep has run this long.
-pub const PROGRESS_AFTER: Duration = Duration::from_secs(2);
+/// Most trials per bandwidth.
+pub const MAX_TRIALS: usize = 10_000;
 
 /// A figure with its 95 % interval.
 #[derive(Clone, Copy, Debug, Serialize, PartialEq)]
@@ -139,6 +140,8 @@ struct Point {
     strength: f64,
     depth: Option<(f64, f64)>,
     at: Option<(f64, f64)>,
+    /// Receiver and sonde (east, north) when the readout is shown.
+    shown: Option<([f64; 2], [f64; 2], f64)>,
 }
 
 /// The noise seed of trial `t` from the sweep's seed (SplitMix64 finaliser).
@@ -149,7 +152,7 @@ pub fn trial_seed(seed: u64, t: usize) -> u64 {
     z ^ (z >> 31)
 }
 
-fn trial(sc: &Scenario, truth: &Synth, bw: f64, seed: u64) -> Result<Trial> {
+fn trial(sc: &Scenario, motion: &Motion, bw: f64, seed: u64) -> Result<Trial> {
     let mut pts = Vec::new();
     let run = simulate_each(sc, Some(seed), Some(bw as f32), &mut |r: Row| {
         pts.push(Point {
@@ -158,6 +161,7 @@ fn trial(sc: &Scenario, truth: &Synth, bw: f64, seed: u64) -> Result<Trial> {
             strength: r.strength,
             depth: r.gradient.depth_m.or(r.fit.depth_m).zip(r.truth.map(|t| t.depth_m)),
             at: r.truth.map(|t| (t.x_m, t.y_m)),
+            shown: r.truth.map(|t| (t.at_shown_m, [t.sonde_shown_m[0], t.sonde_shown_m[1]], t.depth_m)),
         })
     })?;
     let settle_s = run.info.settle_99_s as f64;
@@ -168,23 +172,21 @@ fn trial(sc: &Scenario, truth: &Synth, bw: f64, seed: u64) -> Result<Trial> {
         let (e, t) = est[est.len() / 2];
         100.0 * (e - t) / t
     });
-    // First walk.
-    let mut t0 = 0.0;
+    // First walk: the readouts shown while the receiver walked it.
     let mut lag_m = None;
     let mut false_peak = false;
-    for m in &sc.motion {
-        let d = segment_duration(m);
-        if let MotionSpec::Walk { from, to, .. } = m {
+    for seg in motion.segments() {
+        if let MotionSpec::Walk { from, to, .. } = &seg.spec {
+            let (t0, d) = (seg.start_s, seg.duration_s);
             let seg: Vec<&Point> = pts.iter().filter(|p| p.t_latest_s >= t0 && p.t_latest_s < t0 + d).collect();
             if let Some(best) = seg.iter().max_by(|a, b| a.strength.total_cmp(&b.strength)) {
                 let (dx, dy) = (to[0] - from[0], to[1] - from[1]);
                 let l = (dx * dx + dy * dy).sqrt();
                 let (ux, uy) = (dx / l, dy / l);
-                let now = truth.truth(best.t_latest_s);
-                let s_now = (now.pose.x_m - from[0]) * ux + (now.pose.y_m - from[1]) * uy;
-                let s_sonde = (now.sonde_m[0] - from[0]) * ux + (now.sonde_m[1] - from[1]) * uy;
+                let Some((now, sonde, depth)) = best.shown else { break };
+                let s_now = (now[0] - from[0]) * ux + (now[1] - from[1]) * uy;
+                let s_sonde = (sonde[0] - from[0]) * ux + (sonde[1] - from[1]) * uy;
                 lag_m = Some(s_now - s_sonde);
-                let depth = now.depth_m;
                 let peak = best.strength;
                 let pos = |p: &Point| p.at.map(|(x, y)| (x - from[0]) * ux + (y - from[1]) * uy - s_sonde).unwrap_or(0.0);
                 for w in seg.windows(11) {
@@ -197,7 +199,6 @@ fn trial(sc: &Scenario, truth: &Synth, bw: f64, seed: u64) -> Result<Trial> {
             }
             break;
         }
-        t0 += d;
     }
     Ok(Trial { depth_err_pct, lag_m, false_peak, settle_s })
 }
@@ -295,12 +296,20 @@ pub struct SweepSpec<'a> {
 
 /// Run the sweep.
 pub fn sweep(sc: &Scenario, spec: &SweepSpec) -> Result<Vec<SweepRow>> {
+    let (lo, hi) = (MIN_BANDWIDTH_HZ as f64, MAX_BANDWIDTH_HZ as f64);
     for b in spec.bandwidths {
-        if !(b.is_finite() && *b >= 0.05 && *b <= 50.0) {
-            return Err(SimError::Arg { name: "--bandwidths".into(), msg: format!("{b} Hz is not allowed (allowed 0.05 to 50 Hz)") });
+        if !(b.is_finite() && (lo..=hi).contains(b)) {
+            let (b, lo, hi) = (crate::units::num(*b), crate::units::num(lo), crate::units::num(hi));
+            return Err(SimError::Arg { name: "--bandwidths".into(), msg: format!("{b} Hz is not allowed (allowed: {lo} to {hi} Hz)") });
         }
     }
-    let truth = Synth::new(sc, None);
+    if !(1..=MAX_TRIALS).contains(&spec.trials) {
+        return Err(SimError::Arg { name: "--trials".into(), msg: format!("{} is not allowed (allowed: 1 to {MAX_TRIALS})", spec.trials) });
+    }
+    if !(spec.max_lag_m.is_finite() && spec.max_lag_m > 0.0) {
+        return Err(SimError::Arg { name: "--max-lag-m".into(), msg: format!("{} is not allowed (allowed: above 0)", spec.max_lag_m) });
+    }
+    let motion = Motion::new(&sc.motion, sc.seed);
     let jobs: Vec<(usize, u64)> =
         (0..spec.bandwidths.len()).flat_map(|i| (0..spec.trials).map(move |t| (i, trial_seed(spec.seed, t)))).collect();
     let pb = ProgressBar::with_draw_target(Some(jobs.len() as u64), ProgressDrawTarget::hidden());
@@ -316,7 +325,7 @@ pub fn sweep(sc: &Scenario, spec: &SweepSpec) -> Result<Vec<SweepRow>> {
         let done: Vec<Result<Trial>> = chunk
             .par_iter()
             .map(|&(i, seed)| {
-                let r = trial(sc, &truth, spec.bandwidths[i], seed);
+                let r = trial(sc, &motion, spec.bandwidths[i], seed);
                 if spec.progress && start.elapsed() >= PROGRESS_AFTER && !shown.swap(true, Ordering::Relaxed) {
                     pb.set_draw_target(ProgressDrawTarget::stderr());
                 }

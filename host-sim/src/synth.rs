@@ -71,7 +71,7 @@
 use crate::motion::{Motion, Pose};
 use crate::noise::Gaussian;
 use crate::physics::{axis, dipole, dot, line, skin_depth_m, V};
-use crate::scenario::Scenario;
+use crate::scenario::{HeadKind, Scenario};
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 use undertone_dsp::Head;
 
@@ -119,11 +119,10 @@ impl HeadGeom {
     }
 
     /// The head named in a scenario.
-    pub fn named(name: &str) -> Self {
-        if name == "triads6" {
-            Self::from_head(&Head::triads6())
-        } else {
-            Self::from_head(&Head::reference4())
+    pub fn named(head: &HeadKind) -> Self {
+        match head {
+            HeadKind::Triads6 => Self::from_head(&Head::triads6()),
+            HeadKind::Reference4 => Self::from_head(&Head::reference4()),
         }
     }
 }

@@ -33,10 +33,10 @@ pub fn write(path: &Path, synth: &mut Synth, fmt: WavFormat) -> Result<u64> {
         },
         sample_format: if fmt == WavFormat::F32 { hound::SampleFormat::Float } else { hound::SampleFormat::Int },
     };
-    let name = path.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
-    let tmp = path.with_file_name(format!(".tmp-{}-{}", std::process::id(), name));
+    let tmp = crate::output::temp_beside(path)?;
     let werr = |e: hound::Error| SimError::Wav { path: path.to_path_buf(), msg: format!("cannot write: {e}") };
-    let mut w = hound::WavWriter::create(&tmp, spec).map_err(werr)?;
+    let file = tmp.reopen().map_err(|e| SimError::io(path, "write", e))?;
+    let mut w = hound::WavWriter::new(std::io::BufWriter::new(file), spec).map_err(werr)?;
     let src_bits = (synth.fsc + 1.0).log2().round() as i32 + 1;
     let dst_bits = spec.bits_per_sample as i32;
     let mut frame = vec![0i32; synth.coils];
@@ -59,15 +59,9 @@ pub fn write(path: &Path, synth: &mut Synth, fmt: WavFormat) -> Result<u64> {
         w.flush().map_err(werr)?;
         Ok(())
     })();
-    let finished = result.and_then(|_| w.finalize().map_err(werr));
-    if let Err(e) = finished {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(e);
-    }
-    std::fs::rename(&tmp, path).map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        SimError::io(path, "write", e)
-    })?;
+    // On an error the temporary file is dropped (and deleted), the target left as it was.
+    result.and_then(|_| w.finalize().map_err(werr))?;
+    crate::output::persist(tmp, path)?;
     Ok(n)
 }
 
@@ -81,12 +75,41 @@ pub struct Recording {
     pub data: Samples,
 }
 
+impl Recording {
+    /// Whole frames (one sample per channel) in the recording.
+    pub fn frames(&self) -> usize {
+        let n = match &self.data {
+            Samples::Codes(v, _) => v.len(),
+            Samples::Floats(v) => v.len(),
+        };
+        n / self.channels.max(1)
+    }
+
+    /// One channel as f32 in full-scale units (±1), frames `from..to`.
+    pub fn channel(&self, c: usize, from: usize, to: usize) -> Vec<f32> {
+        let nc = self.channels.max(1);
+        let to = to.min(self.frames());
+        let from = from.min(to);
+        match &self.data {
+            Samples::Codes(v, fsc) => (from..to).map(|k| v.get(k * nc + c).map_or(0.0, |&x| x as f32 / *fsc as f32)).collect(),
+            Samples::Floats(v) => (from..to).map(|k| v.get(k * nc + c).copied().unwrap_or(0.0)).collect(),
+        }
+    }
+}
+
 /// Sample data.
 pub enum Samples {
     /// Integer codes, interleaved, and the largest positive code.
     Codes(Vec<i32>, i32),
     /// Floats, interleaved (±1 full scale).
     Floats(Vec<f32>),
+}
+
+/// Length of a WAV recording, s (from its header).
+pub fn duration_s(path: &Path) -> Result<f64> {
+    let r =
+        hound::WavReader::open(path).map_err(|e| SimError::Wav { path: path.to_path_buf(), msg: format!("not a usable WAV file: {e}") })?;
+    Ok(r.duration() as f64 / r.spec().sample_rate.max(1) as f64)
 }
 
 /// Read a WAV (1 to 8 channels; 16/24/32-bit integer or 32-bit float).

@@ -11,18 +11,36 @@ use undertone_sim::synth::Synth;
 fn demo_depth_within_3_percent_of_truth() {
     let sc = Scenario::demo();
     let run = simulate(&sc, None, None).unwrap();
-    let s = summarise(&sc, &run);
+    let s = summarise(&sc, &run).unwrap();
     let g = s.methods.iter().find(|m| m.method == "gradient").unwrap();
     assert!(g.count > 10, "{g:?}");
     let err = g.error_pct.unwrap();
     assert!(err.abs() < 3.0, "gradient depth error {err} %");
     // The reported σ is honest: the median error is within 3σ.
     assert!((g.estimate_m.unwrap() - g.truth_m.unwrap()).abs() < 3.0 * g.sigma_m.unwrap().max(0.005));
+}
+
+#[test]
+fn demo_walks_find_the_peak_and_the_nulls() {
+    let sc = Scenario::demo();
+    let run = simulate(&sc, None, None).unwrap();
+    let s = summarise(&sc, &run).unwrap();
     // The null span along the axis walk (h = span/√2 for a level sonde, REFERENCES §1) within 3 %.
-    let ns = s.methods.iter().find(|m| m.method.starts_with("null span")).expect("the axis walk has nulls");
+    let ns = s.walks.iter().find_map(|w| w.null_span.clone()).expect("the axis walk has nulls");
     assert!(ns.error_pct.unwrap().abs() < 3.0, "{ns:?}");
-    // The strongest readings of both walks are within 0.1 m of the point over the sonde.
-    assert!(s.peak_errors_m.iter().all(|e| e.abs() < 0.1), "{:?}", s.peak_errors_m);
+    // Its nulls sit h/√2 = 1.13 m either side of the point over the sonde (level dipole,
+    // Griffiths eq. 5.89: the horizontal field vanishes where 2x² = h², h = 1.6 m below the coil).
+    let w = &s.walks[0];
+    assert_eq!(w.nulls_along_m.len(), 2, "{w:?}");
+    for n in &w.nulls_along_m {
+        assert!(((n - w.sonde_along_m).abs() - 1.6 / 2f64.sqrt()).abs() < 0.05, "{w:?}");
+    }
+    // The strongest readings of every walk are within 0.1 m of the point over the sonde.
+    assert_eq!(s.walks.len(), 4);
+    assert!(s.walks.iter().all(|w| w.peak_error_m.abs() < 0.1), "{:?}", s.walks);
+    // The detection range comes from the field model, not from where the walks end (4 m).
+    let r = s.detection_range_m.unwrap();
+    assert!(r > 5.0 && r < 10.0, "{r}");
 }
 
 #[test]

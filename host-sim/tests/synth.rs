@@ -118,7 +118,7 @@ fn mains_harmonics_carry_the_field_projection_with_or_without_the_table() {
         assert_eq!(n, fs as usize, "one second");
         let mut v = vec![[0i32; 4]; n];
         s.fill_codes(&mut v);
-        let head = HeadGeom::named("reference4");
+        let head = HeadGeom::named(&undertone_sim::scenario::HeadKind::Reference4);
         let (sh, ch) = 30f64.to_radians().sin_cos();
         let dir = [0.6, 0.0, 0.8];
         let gains = [1.0, 1.02, 0.99, 1.0];
@@ -183,7 +183,7 @@ heading_deg = 0
 
 /// Amplitude (codes) of the sonde's tone on coil `c` for the receiver at `pose` at time t (Griffiths eq. 5.89).
 fn expected(s: &Synth, c: usize, pose: Pose, t: f64) -> f64 {
-    let head = HeadGeom::named("reference4");
+    let head = HeadGeom::named(&undertone_sim::scenario::HeadKind::Reference4);
     let (sh, ch) = pose.heading_rad.sin_cos();
     let rot = |v: [f64; 3]| [ch * v[0] - sh * v[1], sh * v[0] + ch * v[1], v[2]];
     let p0 = rot(head.pos[c]);

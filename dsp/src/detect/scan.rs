@@ -16,6 +16,7 @@
 //! `~30·MAX_TONES·2·len` fine ones; the scan is a pre-job step, not per sample.
 
 use crate::detect::goertzel::{Goertzel, GoertzelState};
+use crate::detect::settings::{MAX_FREQ_FRACTION, MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
 use crate::detect::window::Window;
 use crate::error::{ConfigError, Param};
 use heapless::Vec;
@@ -44,7 +45,7 @@ pub struct ScanSettings {
     pub sample_rate_hz: f32,
     /// Lowest frequency, Hz.
     pub f_lo_hz: f32,
-    /// Highest frequency, Hz (at most 0.45·fs).
+    /// Highest frequency, Hz (at most [`MAX_FREQ_FRACTION`]·fs).
     pub f_hi_hz: f32,
     /// Coarse resolution (bin width), Hz: 2 to 50.
     pub coarse_resolution_hz: f32,
@@ -59,9 +60,9 @@ impl ScanSettings {
 
 /// Scan `x` (one channel) and return the strongest tones, strongest first.
 pub fn scan(x: &[f32], s: &ScanSettings) -> Result<Vec<Tone, MAX_TONES>, ConfigError> {
-    let fs = ConfigError::check(Param::SampleRate, s.sample_rate_hz, 4_000.0, 250_000.0)?;
+    let fs = ConfigError::check(Param::SampleRate, s.sample_rate_hz, MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ)?;
     let res = ConfigError::check(Param::ScanRange, s.coarse_resolution_hz, 2.0, 50.0)?;
-    let hi = ConfigError::check(Param::ScanRange, s.f_hi_hz, 1.0, 0.45 * fs)?;
+    let hi = ConfigError::check(Param::ScanRange, s.f_hi_hz, 1.0, MAX_FREQ_FRACTION * fs)?;
     let lo = ConfigError::check(Param::ScanRange, s.f_lo_hz, 1.0, hi - 2.0 * res)?;
     let lc = libm::ceilf(fs / res) as usize;
     if x.len() < lc || x.len() > u32::MAX as usize {
