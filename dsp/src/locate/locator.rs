@@ -226,6 +226,11 @@ pub struct Locator<const N: usize> {
     sweep_legs: [f32; 2],
     sweep_hint: Hint,
     move_id: u16,
+    /// Exploring moves: the way (+1 ahead, −1 back) and the field where the last one began.
+    explore_dir: f32,
+    explore_from: f32,
+    /// Seconds the trail's fit has not explained the readings.
+    lost_for_s: f32,
     /// Seconds the head has been still (by the trail's speed), 0 while moving.
     still_for_s: f32,
     last_t_s: f64,
@@ -266,6 +271,9 @@ impl<const N: usize> Locator<N> {
             sweep_legs: [0.0; 2],
             sweep_hint: Hint::Wait,
             move_id: 0,
+            explore_dir: 1.0,
+            explore_from: 0.0,
+            lost_for_s: 0.0,
             still_for_s: 0.0,
             last_t_s: 0.0,
             last_fix: None,
@@ -382,6 +390,17 @@ impl<const N: usize> Locator<N> {
         // dropped as the person moves on); a poor one-station fit flags the field.
         let raw_place = place;
         let place = place.filter(|p| p.consistent);
+        // A fit that has not explained the readings for a while is lost: start afresh.
+        match raw_place {
+            Some(p) if !p.consistent => self.lost_for_s += dt,
+            _ => self.lost_for_s = 0.0,
+        }
+        if self.lost_for_s > LOST_S {
+            self.trail.clear();
+            self.request = None;
+            self.sweep_legs = [0.0; 2];
+            self.lost_for_s = 0.0;
+        }
         let fix_distorted = fix.map(|f| f.dof > 0 && f.chi2 / f.dof as f32 > s.distortion_chi2).unwrap_or(false);
         let distorted = fix_distorted;
         // 6. Guidance.
@@ -401,7 +420,7 @@ impl<const N: usize> Locator<N> {
             self.directions(place.as_ref(), h_hint, clipped, distorted, out_of_line)
         };
         guidance.vertical_ratio = field.vertical_ratio();
-        self.moves(&mut guidance, place.as_ref(), present && !settling);
+        self.moves(&mut guidance, place.as_ref(), present && !settling, field.total);
         self.last_hint = guidance.hint;
         // 7. Depths.
         let gate = self.depth_gate(signal, settling, clipped, distorted, place.as_ref(), &guidance);
@@ -497,7 +516,7 @@ impl<const N: usize> Locator<N> {
     /// is done the next leg of a sweep is asked for, or a new move from the directions:
     /// near the sonde every step is a move of the distance shown (walk it and stop), so
     /// the trail knows how far the head went.
-    fn moves(&mut self, g: &mut Guidance, place: Option<&Place>, present: bool) {
+    fn moves(&mut self, g: &mut Guidance, place: Option<&Place>, present: bool, total: f32) {
         if !present {
             self.request = None;
             self.sweep_legs = [0.0; 2];
@@ -538,7 +557,14 @@ impl<const N: usize> Locator<N> {
                 }
                 (Hint::StepLeft | Hint::StepRight, _) => (g.hint, dist(l)),
                 (Hint::WalkAhead | Hint::WalkBack, _) => (g.hint, dist(a)),
-                (Hint::WalkAlong | Hint::WalkOtherWay, _) => (Hint::WalkAlong, EXPLORE_M),
+                (Hint::WalkAlong | Hint::WalkOtherWay, _) => {
+                    // Exploring: keep the way while the field grows, turn back when it fades.
+                    if self.explore_from > 0.0 && total < 0.9 * self.explore_from {
+                        self.explore_dir = -self.explore_dir;
+                    }
+                    self.explore_from = total;
+                    (Hint::WalkAlong, EXPLORE_M * self.explore_dir)
+                }
                 _ => {
                     g.move_m = None;
                     return;
@@ -628,7 +654,7 @@ impl<const N: usize> Locator<N> {
         // not yet sure, stand still a moment, then sweep along to see the field change.
         let side_known = g.across == Across::Left || g.across == Across::Right;
         let settled = self.still_for_s >= SETTLE_S;
-        let sweep = (0.5 * h).clamp(0.3, 1.0);
+        let sweep = (0.3 * h).clamp(0.3, 0.8);
         // Near the sonde the field runs along its axis: a handle far out of line with it
         // turns "ahead" into "across the axis", where the field changes least. Turn first.
         let near = libm::hypotf(a, l) < (0.7 * h).max(0.5);
@@ -656,7 +682,7 @@ impl<const N: usize> Locator<N> {
                 (false, true) => step,
                 (false, false) => Hint::WalkAlong,
             }
-        } else if side_known && libm::fabsf(l) > tol && sl < 0.5 * libm::fabsf(l) {
+        } else if side_known && sl < 0.5 * libm::fabsf(l) && !(within_l && within_a) {
             step
         } else {
             match g.along {
@@ -849,6 +875,8 @@ pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
 pub const TURN_BEARING_RAD: f32 = 0.262;
 /// Fastest motion of the head at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
 pub const MAX_OVER_SPEED_DEPTHS_PER_S: f32 = 0.1;
+/// A trail fit that has not explained the readings this long is dropped, s.
+pub const LOST_S: f32 = 2.0;
 /// Stations a fit needs before its directions are acted on.
 pub const MIN_STATIONS: u8 = 8;
 /// Near the sonde the handle is turned in line with its axis when they are further apart than this, rad (30°).
