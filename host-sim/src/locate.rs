@@ -20,6 +20,9 @@
 //! * **hold still**: stands still and, once a depth has been shown for a second,
 //!   marks the spot and reads the depth. That ends the start.
 //!
+//! A sonde that the scenario pushes along its pipe is held where it starts:
+//! the push is paused while the crew locates the head (common practice).
+//!
 //! A start counts as *located* when the marked spot is within
 //! `max(0.15 m, 0.1·depth)` of the point over the sonde and the depth read is
 //! within 2σ and 5 % of the truth. A start that has not ended after
@@ -256,6 +259,8 @@ fn one<const N: usize>(
     let start = start_pose(sc, &mut rng, range)?;
     // The synthesis takes the scenario's sources, noise and receiver; the motion is ours.
     let mut scn = sc.clone();
+    // The push is paused while the crew locates the head (common practice): the sonde stays put.
+    scn.sonde.push_speed_m_s = 0.0;
     scn.motion = vec![MotionSpec::Still { at: [start.x_m, start.y_m], heading_deg: start.heading_rad.to_degrees(), duration_s: 1.0 }];
     let mut synth = Synth::new(&scn, Some(seed.wrapping_add(1000 + index as u64)));
     let settings = receiver_settings(sc, head, None);

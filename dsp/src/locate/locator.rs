@@ -226,6 +226,9 @@ pub struct Locator<const N: usize> {
     sweep_legs: [f32; 2],
     sweep_hint: Hint,
     move_id: u16,
+    /// The last move made, and the way back shown while the tone is lost (distance, across?, id).
+    last_move: Option<MoveRequest>,
+    back: Option<(Hint, f32, u16)>,
     /// Exploring moves: the way (+1 ahead, −1 back) and the field where the last one began.
     explore_dir: f32,
     explore_from: f32,
@@ -271,6 +274,8 @@ impl<const N: usize> Locator<N> {
             sweep_legs: [0.0; 2],
             sweep_hint: Hint::Wait,
             move_id: 0,
+            last_move: None,
+            back: None,
             explore_dir: 1.0,
             explore_from: 0.0,
             lost_for_s: 0.0,
@@ -518,17 +523,38 @@ impl<const N: usize> Locator<N> {
     /// the trail knows how far the head went.
     fn moves(&mut self, g: &mut Guidance, place: Option<&Place>, present: bool, total: f32) {
         if !present {
-            self.request = None;
+            // The tone is lost after a move: go back the way the move went, once.
+            if let Some(r) = self.request.take().or(self.last_move) {
+                self.last_move = None;
+                self.move_id = self.move_id.wrapping_add(1);
+                let across = r.ahead_m == 0.0;
+                let m = if across { -r.left_m } else { -r.ahead_m };
+                let hint = match (across, m > 0.0) {
+                    (true, true) => Hint::StepLeft,
+                    (true, false) => Hint::StepRight,
+                    (false, true) => Hint::WalkAhead,
+                    (false, false) => Hint::WalkBack,
+                };
+                self.back = Some((hint, m, self.move_id));
+            }
+            if let Some((hint, m, id)) = self.back {
+                g.hint = hint;
+                g.move_m = Some(m);
+                g.move_id = id;
+            }
             self.sweep_legs = [0.0; 2];
             return;
         }
+        self.back = None;
         if let Some(r) = self.request.filter(|_| self.trail.moving()) {
             g.hint = self.request_hint;
             g.move_m = Some(if matches!(g.hint, Hint::StepLeft | Hint::StepRight | Hint::SweepAcross) { r.left_m } else { r.ahead_m });
             g.move_id = r.id;
             return;
         }
-        self.request = None;
+        if let Some(r) = self.request.take() {
+            self.last_move = Some(r);
+        }
         let leg = self.sweep_legs[0];
         let (hint, dist) = if leg != 0.0 && g.hint != Hint::HoldStill {
             self.sweep_legs = [self.sweep_legs[1], 0.0];
@@ -614,7 +640,8 @@ impl<const N: usize> Locator<N> {
         let (a, sa) = (p.ahead_m.value, p.ahead_m.sigma);
         let (l, sl) = (p.left_m.value, p.left_m.sigma);
         let within_a = libm::fabsf(a) + 2.0 * sa <= tol;
-        let within_l = libm::fabsf(l) + 2.0 * sl <= tol;
+        // Over is claimed on the distance from the point, both directions together.
+        let within_l = libm::fabsf(l) + 2.0 * sl <= tol && libm::hypotf(a, l) + 2.0 * sa.max(sl) <= tol;
         g.along = if p.ambiguous_ahead || !sa.is_finite() {
             Along::Unsure
         } else if within_a && still {
@@ -886,7 +913,7 @@ pub const NEAR_MOVE_M: f32 = 0.6;
 /// An exploring move (the way is not known yet), m.
 pub const EXPLORE_M: f32 = 0.5;
 /// Longest move of a set distance asked for, m.
-pub const MAX_MOVE_M: f32 = 2.0;
+pub const MAX_MOVE_M: f32 = 1.0;
 /// Seconds to stand still near the point over the sonde before the receiver asks for a sweep.
 pub const SETTLE_S: f32 = 2.0;
 /// Relative error of the dipole model at the depths a receiver reads (the
@@ -896,5 +923,5 @@ pub const MODEL_FLOOR: f32 = 0.01;
 
 /// The trail's settings from the locator's.
 fn trail_settings(s: &LocatorSettings) -> TrailSettings {
-    TrailSettings { gain_tolerance: s.gain_tolerance.max(1e-4), ..TrailSettings::default() }
+    TrailSettings { gain_tolerance: s.gain_tolerance.max(1e-4), skin_depth_m: s.skin_depth_m, ..TrailSettings::default() }
 }

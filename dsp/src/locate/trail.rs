@@ -60,7 +60,7 @@ use crate::locate::fit::{model_jacobian, Estimate};
 use crate::locate::small::{inv3_spd, inv_spd, mul3, transpose3, wrap_pi, M3};
 
 /// Stations kept (the oldest is dropped when a new one starts).
-pub const STATIONS: usize = 40;
+pub const STATIONS: usize = 48;
 /// Fits run side by side.
 pub const HYPOTHESES: usize = 4;
 /// Shared unknowns: depth, pitch, log strength, upper gain error.
@@ -101,6 +101,10 @@ pub enum Motion {
         ahead_m: f32,
         /// Distance to the left, m.
         left_m: f32,
+        /// σ of the distance ahead, m.
+        sigma_ahead_m: f32,
+        /// σ of the distance to the left, m.
+        sigma_left_m: f32,
     },
 }
 
@@ -156,6 +160,8 @@ pub struct TrailSettings {
     pub moving_floor: f32,
     /// A gap without signal longer than this starts a new trail, s.
     pub max_gap_s: f32,
+    /// Skin depth of the ground, m (infinite: no loss).
+    pub skin_depth_m: f32,
 }
 
 impl Default for TrailSettings {
@@ -170,6 +176,7 @@ impl Default for TrailSettings {
             relative_floor: 0.001,
             moving_floor: 0.005,
             max_gap_s: 1.5,
+            skin_depth_m: f32::INFINITY,
         }
     }
 }
@@ -454,11 +461,39 @@ impl<const N: usize> Trail<N> {
                 let steady = rd.t_s - p.steady_since.unwrap_or(p.start_t) >= settle;
                 if elapsed >= least + settle && steady {
                     let anchored = p.first >= 1 && p.first <= self.len;
-                    if anchored {
-                        self.len = p.first;
-                    }
                     forced = Some(if anchored && (p.changed || dist < 0.05) {
-                        Motion::Moved { ahead_m: p.req.ahead_m, left_m: p.req.left_m }
+                        // The distance asked for, shared among the links made during the
+                        // move in proportion to their time (a steady pace), its σ likewise
+                        // (the pace's error as independent increments).
+                        // The move began when the hint was shown (a readout interval before the
+                        // first readout that carried it, its data a group delay older) and ended
+                        // with the last change the readouts saw.
+                        let t0 = p.start_t - self.last_dt_s + rd.group_delay_s;
+                        let mut t1 = p.steady_since.unwrap_or(rd.t_s);
+                        if t1 <= t0 + 0.1 {
+                            t1 = t0 + least;
+                        }
+                        let frac_at = |t: f32| ((t - t0) / (t1 - t0)).clamp(0.0, 1.0);
+                        let along = libm::fabsf(p.req.ahead_m) >= libm::fabsf(p.req.left_m);
+                        let s_move = MOVE_RELATIVE * dist + MOVE_SIGMA_M;
+                        let s_drift = MOVE_DRIFT * dist + MOVE_SIGMA_M;
+                        let link = |frac: f32| {
+                            let w = libm::sqrtf(frac.max(0.02));
+                            let (sm, sd) = (s_move * w, s_drift * w);
+                            Motion::Moved {
+                                ahead_m: p.req.ahead_m * frac,
+                                left_m: p.req.left_m * frac,
+                                sigma_ahead_m: if along { sm } else { sd }.max(1e-3),
+                                sigma_left_m: if along { sd } else { sm }.max(1e-3),
+                            }
+                        };
+                        let mut prev = 0.0;
+                        for k in p.first..self.len {
+                            let f = frac_at(self.st[k].t_mid());
+                            self.st[k].motion = link(f - prev);
+                            prev = f;
+                        }
+                        link(1.0 - prev)
                     } else {
                         Motion::Free
                     });
@@ -484,9 +519,6 @@ impl<const N: usize> Trail<N> {
         let rd = &Reading { motion: forced.unwrap_or(rd.motion), ..*rd };
         let new_station = self.add(rd, turned || forced.is_some());
         if new_station {
-            self.cut_links();
-        }
-        if new_station {
             if self.len == 1 {
                 self.seed_first();
             } else {
@@ -500,6 +532,13 @@ impl<const N: usize> Trail<N> {
         for k in 0..HYPOTHESES {
             if self.hyp[k].live {
                 self.iterate(k, ITERATIONS);
+            }
+        }
+        if new_station && self.cut_links() {
+            for k in 0..HYPOTHESES {
+                if self.hyp[k].live {
+                    self.iterate(k, ITERATIONS);
+                }
             }
         }
         self.reseed();
@@ -643,19 +682,22 @@ impl<const N: usize> Trail<N> {
     /// A link between stations whose motion prior the best fit breaks by more
     /// than [`CUT_SIGMAS`] is a person who did not do as asked: that station's
     /// motion becomes [`Motion::Free`] (for every fit).
-    fn cut_links(&mut self) {
-        let Some(b) = self.best() else { return };
+    fn cut_links(&mut self) -> bool {
+        let Some(b) = self.best() else { return false };
+        let mut cut = false;
         let h = self.hyp[b];
         let from = self.len.saturating_sub(4).max(1);
-        for i in from..self.len.saturating_sub(1) {
+        for i in from..self.len {
             if self.st[i].motion == Motion::Free {
                 continue;
             }
             let (e, _, _) = self.prior_raw(&h, i);
             if e.iter().any(|v| libm::fabsf(*v) > CUT_SIGMAS) {
                 self.st[i].motion = Motion::Free;
+                cut = true;
             }
         }
+        cut
     }
 
     /// Whitened residuals and Jacobians of station `i` under fit `h`.
@@ -671,7 +713,25 @@ impl<const N: usize> Trail<N> {
         let l = h.loc[i];
         let kk = libm::expf(h.glob[IK]);
         let th = [l[0], l[1], h.glob[IH], l[2], h.glob[IA], kk];
-        let (m0, jac) = model_jacobian(&self.head, &th);
+        let (mut m0, mut jac) = model_jacobian(&self.head, &th);
+        // First-order loss in conducting ground, e^{−d/δ} on the path from the sonde to
+        // each coil (δ the skin depth; the same simplification as the simulator's soil).
+        let delta = self.settings.skin_depth_m;
+        if delta.is_finite() && delta > 0.0 {
+            for (c, coil) in self.head.coils.iter().enumerate() {
+                let r = [coil.pos_m[0] - l[0], coil.pos_m[1] - l[1], coil.pos_m[2] + h.glob[IH]];
+                let d = libm::sqrtf(r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).max(1e-6);
+                let att = libm::expf(-d / delta);
+                let dd = [-r[0] / d, -r[1] / d, r[2] / d];
+                for (k, dk) in [0usize, 1, 2].iter().zip(dd.iter()) {
+                    jac[c][*k] = att * jac[c][*k] - m0[c] * att / delta * dk;
+                }
+                for k in 3..6 {
+                    jac[c][k] *= att;
+                }
+                m0[c] *= att;
+            }
+        }
         let gf = 1.0 + h.glob[IG];
         let mut m = [0.0; N];
         for c in 0..N {
@@ -724,14 +784,10 @@ impl<const N: usize> Trail<N> {
             Motion::Hold => (s.drift_sigma_m, s.drift_sigma_m, s.heading_sigma_rad),
             Motion::Turn => (s.drift_sigma_m, s.drift_sigma_m, 1e3),
             Motion::Free => (s.step_sigma_m, s.step_sigma_m, FREE_HEADING_RAD),
-            Motion::Moved { ahead_m, left_m } => (
-                MOVE_RELATIVE * libm::fabsf(ahead_m) + MOVE_SIGMA_M,
-                MOVE_RELATIVE * libm::fabsf(left_m) + MOVE_SIGMA_M,
-                s.heading_sigma_rad,
-            ),
+            Motion::Moved { sigma_ahead_m, sigma_left_m, .. } => (sigma_ahead_m, sigma_left_m, s.heading_sigma_rad),
         };
         let (ma, ml) = match self.st[i].motion {
-            Motion::Moved { ahead_m, left_m } => (ahead_m, left_m),
+            Motion::Moved { ahead_m, left_m, .. } => (ahead_m, left_m),
             _ => (0.0, 0.0),
         };
         let (wa, wl, wp) = (1.0 / sa.max(1e-4), 1.0 / sl.max(1e-4), 1.0 / spsi.max(1e-4));
@@ -1165,7 +1221,7 @@ pub const MIN_DEPTH_M: f32 = 0.1;
 pub const MAX_DEPTH_M: f32 = 30.0;
 
 /// Most stations kept during one move.
-const MAX_MOVE_STATIONS: usize = 6;
+const MAX_MOVE_STATIONS: usize = 12;
 /// A station while the head turns spans at most this long, s.
 const TURN_STATION_S: f32 = 0.25;
 /// Floor of a reading's σ while the head turns, relative to the field: the detector's
@@ -1183,12 +1239,14 @@ const MOVE_TIMEOUT_S: f32 = 4.0;
 const MOVE_RELATIVE: f32 = 0.2;
 /// Least σ of a move of a set distance, m.
 const MOVE_SIGMA_M: f32 = 0.02;
+/// Relative σ of the drift across a move of a set distance.
+const MOVE_DRIFT: f32 = 0.05;
 
 /// Longest station while the head is asked to move, s.
 const MAX_STATION_S: f32 = 0.5;
 
 /// A motion prior broken by this many σ is cut (the station's motion becomes free).
-pub const CUT_SIGMAS: f32 = 5.0;
+pub const CUT_SIGMAS: f32 = 12.0;
 /// Prior σ of the head's turn between stations when the motion is free, rad (20°).
 const FREE_HEADING_RAD: f32 = 0.35;
 
