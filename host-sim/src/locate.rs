@@ -58,7 +58,7 @@ pub const PAUSE_S: f64 = 0.8;
 /// The operator counts the receiver as in line within this bearing, degrees.
 pub const ALIGNED_DEG: f64 = 5.0;
 /// Turning rate, rad/s (30°/s).
-pub const TURN_RAD_S: f64 = 0.5236;
+pub const TURN_RAD_S: f64 = std::f64::consts::FRAC_PI_6;
 /// Time a depth must have been shown before the operator reads it, s.
 pub const READ_AFTER_S: f64 = 1.0;
 /// Least SNR of the best coil at a start, dB.

@@ -1,6 +1,8 @@
 //! Shared helpers for the cross-crate tests: deterministic synthetic signals,
-//! f64 reference implementations ([`reference`]) and the target images.
+//! f64 reference implementations ([`reference`](mod@reference)), a person who follows the
+//! receiver's moves ([`operator`]) and the target images.
 
+pub mod operator;
 pub mod reference;
 pub mod target;
 

@@ -10,7 +10,7 @@ use undertone_dsp::locate::components::FieldVector;
 use undertone_dsp::locate::depth::{
     gradient_depth, known_moment_depth, null_span_depth, CoilPair, DepthEstimate, Offsets, RatioOf, Withheld,
 };
-use undertone_dsp::locate::guidance::offset_from_ratio;
+use undertone_dsp::locate::guidance::{offset_from_ratio, Across};
 use undertone_dsp::{Beacon, DetectorSettings, FieldModel, Head, Receiver, ReceiverSettings, C32};
 use undertone_tests::{mean_var, Noise};
 
@@ -228,57 +228,58 @@ fn det_at(h: f32, x: f32, y: f32, t_s: f64) -> undertone_dsp::Detection<4> {
 
 #[test]
 fn walking_the_axis_guidance_is_right_and_depth_only_over_the_sonde() {
-    // Walk the axis from 3h behind the sonde to 3h past it at 0.4 m/s (20 readouts/s), then back
-    // to the point over it and stand. The truth: the sonde is ahead while x < 0 (eq. 5.89 field).
+    // A person starts 3h behind the point over a 1.5 m sonde on its axis (beyond the fore
+    // null at √2·h and the secondary peak) and does what the receiver asks, 20 readouts/s.
+    // The truth: the sonde is ahead while x < 0 and to the left while y < 0 (Griffiths
+    // eq. 5.89 dipole field through `Head::readings`). Every direction shown is right,
+    // "over" and a depth only within max(0.15 m, 0.1·h) of the point over the sonde, and the
+    // depth within 3σ; standing over it the receiver shows a depth.
     let s = ReceiverSettings::new(DetectorSettings::new(48_000.0, Beacon::Hz512), InputScale::unity(24), Head::reference4());
     let mut rx = Receiver::<4>::new(s).unwrap();
     let h = 1.5f32;
-    let tol = 0.15f32;
-    let (mut t, dt, v) = (0.0f64, 0.05f64, 0.4f32);
-    let mut path: Vec<f32> = Vec::new();
-    let mut x = -3.0 * h;
-    while x < 3.0 * h {
-        path.push(x);
-        x += v * dt as f32;
-    }
-    while x > 0.0 {
-        path.push(x);
-        x -= v * dt as f32;
-    }
-    path.extend(std::iter::repeat_n(0.0, 40));
-    let (mut shown, mut right, mut depths) = (0, 0, 0);
-    // A readout describes the field at its data time and is shown a group delay later:
-    // check what it shows against where the receiver is then.
-    let lag = (rx.detector_info().group_delay_s as f64 / dt).round() as usize;
-    for (i, &x_data) in path.iter().enumerate() {
-        let r = rx.locate(&det_at(h, x_data, 0.0, t));
-        t += dt;
-        let x = path[(i + lag).min(path.len() - 1)];
-        match r.guidance.direction() {
+    let tol = (0.1 * h).max(0.15);
+    let shown = undertone_tests::operator::follow(
+        &mut rx,
+        (-3.0 * h, 0.0),
+        0.05,
+        300.0,
+        |x, y, t| det_at(h, x, y, t),
+        |v| v.iter().filter(|s| s.readout.depth.is_some()).count() >= 40,
+    );
+    let (mut along, mut right_along, mut across, mut right_across, mut beyond) = (0, 0, 0, 0, 0);
+    for s in &shown {
+        let (x, y, g) = (s.x, s.y, &s.readout.guidance);
+        match g.direction() {
             0 => {}
             d => {
-                shown += 1;
-                // Sonde ahead exactly when x < 0 (allowing the over tolerance).
-                if (d > 0) == (x < 0.0) || x.abs() < tol {
-                    right += 1;
-                }
+                along += 1;
+                beyond += usize::from(x.abs() > std::f32::consts::SQRT_2 * h);
+                right_along += usize::from(d == if x < 0.0 { 1 } else { -1 });
             }
         }
-        if r.guidance.over() {
-            assert!(x.abs() <= tol, "over shown at x = {x}");
+        match g.across {
+            Across::Left | Across::Right => {
+                across += 1;
+                right_across += usize::from((g.across == Across::Left) == (y < 0.0));
+            }
+            _ => {}
         }
-        if let Some(d) = r.depth {
-            depths += 1;
-            assert!(x.abs() <= tol, "depth shown at x = {x}: {d:?}");
+        if g.over() {
+            assert!(x.hypot(y) <= tol, "over shown at x = {x}, y = {y}");
+        }
+        if let Some(d) = s.readout.depth {
+            assert!(x.hypot(y) <= tol, "depth shown at x = {x}, y = {y}: {d:?}");
             assert!((d.depth.depth_m - h).abs() < 3.0 * d.depth.sigma_m && d.depth.sigma_m > 0.0, "{d:?}");
         }
-        // Over a secondary peak (|x| ≈ 1.2247 h) never a depth.
-        if (x_data.abs() - 1.2247 * h).abs() < 0.1 {
-            assert!(r.depth.is_none());
+        // Over a secondary peak (|x| ≈ 1.2247 h, on the axis) never a depth.
+        if (x.abs() - 1.2247 * h).abs() < 0.1 && y.abs() < 0.1 {
+            assert!(s.readout.depth.is_none());
         }
     }
-    assert!(right == shown && shown > path.len() / 2, "{right}/{shown} of {}", path.len());
-    assert!(depths >= 30, "standing over the sonde: {depths} depths");
+    assert!(right_along == along && beyond > 0, "along: {right_along}/{along} right ({beyond} beyond the nulls)");
+    assert!(right_across == across, "across: {right_across}/{across} right");
+    let depths = shown.iter().filter(|s| s.readout.depth.is_some()).count();
+    assert!(depths >= 40, "{depths} depths in {:.0} s", shown.len() as f32 * 0.05);
 }
 
 #[test]

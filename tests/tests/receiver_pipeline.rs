@@ -5,6 +5,8 @@
 //! `Head::readings`, which the field reference tests check against that formula.
 
 use proptest::prelude::*;
+use rand::rngs::StdRng;
+use rand::{RngExt, SeedableRng};
 use undertone_dsp::detect::input::InputScale;
 use undertone_dsp::field::Source;
 use undertone_dsp::locate::components::FieldVector;
@@ -54,25 +56,46 @@ fn run_path(rx: &mut Receiver<4>, h: f32, k: f32, path: impl Fn(f64) -> f32, sec
 
 #[test]
 fn walking_into_the_sonde_the_receiver_reads_its_depth() {
-    // Walk along the axis from 2h behind the point over the sonde at 0.3 m/s, stop over it and
-    // stand 4 s: while walking the direction is "ahead", standing a depth is shown and right.
+    // A person starts 2h behind the point over the sonde on its axis and does what the
+    // receiver asks (tests/src/operator.rs), the coils sampled at 48 kSPS: every direction
+    // shown is right, and the receiver ends with a depth within 3σ of the truth read over
+    // the sonde (max(0.15 m, 0.1·h) of it).
     for h in [0.8f32, 1.5, 3.0] {
         let mut rx = Receiver::new(settings()).unwrap();
         let k = 0.3 / readings(h, 0.0, 0.0)[0].abs();
-        let v = 0.3f32;
-        let t_walk = (2.0 * h / v) as f64;
-        let path = move |t: f64| if t < t_walk { -2.0 * h + v * t as f32 } else { 0.0 };
-        let rs = run_path(&mut rx, h, k, path, t_walk + 4.0, 1e-4, 1);
-        for r in &rs {
-            let x = path(r.sample_index as f64 / 48_000.0);
-            if r.guidance.direction() != 0 && x < -0.15 {
-                assert_eq!(r.guidance.direction(), 1, "h={h} x={x}: {:?}", r.guidance);
+        let fs = 48_000.0f64;
+        let w = 2.0 * std::f64::consts::PI * 512.0 / fs;
+        let mut noise = Noise::new(1, 1e-4);
+        let mut op = undertone_tests::operator::Operator::new(-2.0 * h, 0.0);
+        let (mut x, mut y) = (-2.0 * h, 0.0f32);
+        let mut amp = readings(h, x, y);
+        let (mut last, mut depths, mut t_prev) = (None, 0, 0.0f64);
+        let tol = (0.1 * h).max(0.15);
+        for n in 0..(200.0 * fs) as usize {
+            let c = (w * n as f64 + 0.4).cos();
+            let f = [0, 1, 2, 3].map(|i| (k as f64 * amp[i] as f64 * c + noise.sample()) as f32);
+            let Some(r) = rx.push(&f) else { continue };
+            let d = r.guidance.direction();
+            if d != 0 {
+                assert_eq!(d, if x < 0.0 { 1 } else { -1 }, "h={h} x={x} y={y}: {:?}", r.guidance);
             }
+            if let Some(dp) = r.depth {
+                assert!(x.hypot(y) <= tol, "h={h}: depth at ({x}, {y})");
+                assert!((dp.depth.depth_m - h).abs() < 3.0 * dp.depth.sigma_m, "h={h}: {dp:?}");
+                depths += 1;
+            }
+            last = Some(r);
+            if depths >= 20 {
+                break;
+            }
+            let t = n as f64 / fs;
+            (x, y) = op.step(&r.guidance, (t - t_prev) as f32);
+            t_prev = t;
+            amp = readings(h, x, y);
         }
-        let last = rs.last().unwrap();
-        let d = last.depth.unwrap_or_else(|| panic!("h={h}: no depth: {:?} {:?}", last.guidance, last.gradient)).depth;
-        assert!((d.depth_m - h).abs() < 3.0 * d.sigma_m, "h={h}: {d:?}");
-        assert!((last.strength - 0.3).abs() < 1e-3);
+        let last = last.unwrap();
+        assert!(depths >= 20, "h={h}: {depths} depths; last {:?}", last.guidance);
+        assert!((last.strength / (k * readings(h, x, y)[0].abs()) - 1.0).abs() < 1e-2, "h={h}: strength {}", last.strength);
     }
 }
 
@@ -103,93 +126,135 @@ fn gain_requests_and_rescaling_keep_readouts_continuous() {
     assert!((after / before - 1.0).abs() < 1e-3, "{after} vs {before}");
 }
 
-/// Detections of a walk along the axis from −2h to the point over the sonde then standing,
-/// as the detector would hand them (phasor = reading·e^{jφ}, noise σ 1e-4 of the peak).
-fn walk_detections(h: f32, phase: f32, k: f32) -> Vec<undertone_dsp::Detection<4>> {
+/// The detection of the reference head at (x, y) from a level sonde h m down, as the
+/// detector would hand it (phasor = reading·e^{jφ}·k/peak, noise σ 1e-4·k).
+fn det(h: f32, x: f32, y: f32, t_s: f64, phase: f32, k: f32) -> undertone_dsp::Detection<4> {
     let peak = readings(h, 0.0, 0.0)[0].abs();
-    let mut out = Vec::new();
-    let n_walk = (2.0 * h / 0.02) as usize;
-    for i in 0..n_walk + 60 {
-        let x = if i < n_walk { -2.0 * h + 0.02 * i as f32 } else { 0.0 };
-        let r = readings(h, x, 0.0);
-        out.push(undertone_dsp::Detection::<4> {
-            sample_index: i as u64,
-            t_s: i as f64 * 0.05,
-            phasors: r.map(|v| undertone_dsp::phasor::unit(phase).scale(k * v / peak)),
-            noise_sigma: [k * 1e-4; 4],
-            stats: Default::default(),
-            freq_offset_hz: 0.0,
-            freq_offset_sigma_hz: 0.0,
-            flags: Default::default(),
-        });
+    undertone_dsp::Detection::<4> {
+        sample_index: (t_s * 20.0).round() as u64,
+        t_s,
+        phasors: readings(h, x, y).map(|v| undertone_dsp::phasor::unit(phase).scale(k * v / peak)),
+        noise_sigma: [k.abs() * 1e-4; 4],
+        stats: Default::default(),
+        freq_offset_hz: 0.0,
+        freq_offset_sigma_hz: 0.0,
+        flags: Default::default(),
     }
-    out
 }
 
-fn phasor() -> impl Strategy<Value = C32> {
-    let v = prop_oneof![Just(f32::NAN), Just(f32::INFINITY), Just(0.0f32), Just(1e30f32), Just(-1e-30f32), -10.0f32..10.0];
-    (v.clone(), v).prop_map(|(a, b)| C32::new(a, b))
+/// Phasors and noise σ put in place of a readout's.
+type Garbage = ([C32; 4], [f32; 4]);
+
+/// Random garbage in place of a readout: NaN, infinities, zeros, huge and tiny values.
+fn garbage(rng: &mut StdRng) -> Garbage {
+    let v = |rng: &mut StdRng| match rng.random_range(0..6) {
+        0 => f32::NAN,
+        1 => f32::INFINITY,
+        2 => 0.0,
+        3 => 1e30,
+        4 => -1e-30,
+        _ => rng.random_range(-10.0f32..10.0),
+    };
+    let p = std::array::from_fn(|_| C32::new(v(rng), v(rng)));
+    let s = std::array::from_fn(|_| match rng.random_range(0..3) {
+        0 => 0.0,
+        1 => f32::NAN,
+        _ => rng.random_range(0.0f32..1.0),
+    });
+    (p, s)
+}
+
+/// Closed loops per randomized check. Each is a person locating a sonde (hundreds of
+/// readouts); the receiver locates a share of them short of all (BENCHMARKS.md), so these
+/// checks count successes over a seeded set instead of requiring every case.
+const LOOPS: usize = 40;
+
+#[test]
+fn locate_never_emits_non_finite() {
+    // A person locating the sonde (starting 2h behind it on its axis, doing as asked) with
+    // up to five readouts replaced by garbage: every output of every readout stays finite,
+    // and the receiver still ends with a depth over the sonde in nearly every case.
+    let mut rng = StdRng::seed_from_u64(11);
+    let mut located = 0;
+    for _ in 0..LOOPS {
+        let h = rng.random_range(0.5f32..3.0);
+        let bad: Vec<(usize, Garbage)> = (0..rng.random_range(0..6)).map(|_| (rng.random_range(0..400), garbage(&mut rng))).collect();
+        let mut rx = Receiver::new(settings()).unwrap();
+        let mut n = 0usize;
+        let shown = undertone_tests::operator::follow(
+            &mut rx,
+            (-2.0 * h, 0.0),
+            0.05,
+            240.0,
+            |x, y, t| {
+                let mut d = det(h, x, y, t, 0.3, 1.0);
+                if let Some((_, (p, s))) = bad.iter().find(|b| b.0 == n) {
+                    d.phasors = *p;
+                    d.noise_sigma = *s;
+                }
+                n += 1;
+                d
+            },
+            |v| v.iter().filter(|s| s.readout.depth.is_some()).count() >= 5,
+        );
+        for s in &shown {
+            let r = &s.readout;
+            assert!(r.strength.is_finite() && r.strength_db.is_finite() && r.bearing_deg.is_finite() && r.snr_db.is_finite(), "{r:?}");
+            assert!(r.guidance.vertical_ratio.is_finite());
+            for d in [r.gradient, r.known_moment].into_iter().flatten() {
+                assert!(d.depth_m.is_finite() && d.sigma_m.is_finite() && d.sigma_m > 0.0, "{d:?}");
+            }
+            for d in [r.guidance.ahead, r.guidance.left].into_iter().flatten() {
+                assert!(d.value_m.is_finite() && d.sigma_m.is_finite(), "{d:?}");
+            }
+        }
+        located += usize::from(shown.last().unwrap().readout.depth.is_some());
+    }
+    println!("located {located} of {LOOPS}");
+    // Measured: 40 of 40 (seed 11); bound 36, for the closed-loop rate of BENCHMARKS.md.
+    assert!(located >= 36, "{located} of {LOOPS} located");
+}
+
+#[test]
+fn results_invariant_to_amplitude_and_global_sign() {
+    // The same person locating the same sonde with the signal at another strength (×1e-3 to
+    // ×1e3), phase and sign: the receiver locates it alike, to the same depth.
+    let mut rng = StdRng::seed_from_u64(12);
+    let mut alike = 0;
+    for _ in 0..LOOPS {
+        let h = rng.random_range(0.4f32..3.0);
+        let phase = rng.random_range(-3.0f32..3.0);
+        let k = 10f32.powf(rng.random_range(-3.0f32..3.0)) * if rng.random_range(0..2) == 0 { -1.0 } else { 1.0 };
+        let run = |phase: f32, k: f32| {
+            let mut rx = Receiver::new(settings()).unwrap();
+            let shown = undertone_tests::operator::follow(
+                &mut rx,
+                (-2.0 * h, 0.0),
+                0.05,
+                240.0,
+                |x, y, t| det(h, x, y, t, phase, k),
+                |v| v.iter().filter(|s| s.readout.depth.is_some()).count() >= 5,
+            );
+            let last = *shown.last().unwrap();
+            (shown.len(), last)
+        };
+        let ((na, a), (nb, b)) = (run(0.3, 1.0), run(phase, k));
+        // Rounding decides a threshold a readout earlier or later now and then; the loops
+        // then part ways but end alike: both with a depth, the same within their σ, at
+        // nearly the same time.
+        if let (Some(p), Some(q)) = (a.readout.depth, b.readout.depth) {
+            assert!((p.depth.depth_m - q.depth.depth_m).abs() < p.depth.sigma_m + q.depth.sigma_m, "h={h}: {p:?} vs {q:?}");
+            assert!((a.x - b.x).hypot(a.y - b.y) <= 2.0 * (0.1 * h).max(0.15), "h={h}: ({}, {}) vs ({}, {})", a.x, a.y, b.x, b.y);
+            alike += usize::from(na.abs_diff(nb) * 4 <= na.max(nb));
+        }
+    }
+    println!("alike {alike} of {LOOPS}");
+    // Measured: 40 of 40 (seed 12); bound 36.
+    assert!(alike >= 36, "{alike} of {LOOPS} alike");
 }
 
 proptest! {
     #![proptest_config(ProptestConfig::with_cases(cases(64)))]
-
-    #[test]
-    fn locate_never_emits_non_finite(
-        bad in prop::collection::vec((0usize..200, prop::array::uniform4(phasor()), prop::array::uniform4(prop_oneof![Just(0.0f32), Just(f32::NAN), Just(f32::INFINITY), 0.0f32..1.0])), 0..6),
-        h in 0.5f32..3.0,
-    ) {
-        // A clean walk into the sonde with a few readouts replaced by garbage: every output
-        // stays finite, and the walk still ends with a depth.
-        let mut rx = Receiver::new(settings()).unwrap();
-        let mut dets = walk_detections(h, 0.3, 1.0);
-        for (i, p, s) in &bad {
-            let i = i % dets.len().saturating_sub(40).max(1);
-            dets[i].phasors = *p;
-            dets[i].noise_sigma = *s;
-        }
-        let mut last = None;
-        for d in &dets {
-            let r = rx.locate(d);
-            prop_assert!(r.strength.is_finite() && r.strength_db.is_finite() && r.bearing_deg.is_finite() && r.snr_db.is_finite());
-            prop_assert!(r.guidance.vertical_ratio.is_finite());
-            for d in [r.gradient, r.known_moment].into_iter().flatten() {
-                prop_assert!(d.depth_m.is_finite() && d.sigma_m.is_finite() && d.sigma_m > 0.0);
-            }
-            for d in [r.guidance.ahead, r.guidance.left].into_iter().flatten() {
-                prop_assert!(d.value_m.is_finite() && d.sigma_m.is_finite());
-            }
-            last = Some(r);
-        }
-        let last = last.unwrap();
-        prop_assert!(last.depth.is_some(), "no depth at the end: {:?}", last.guidance);
-    }
-
-    #[test]
-    fn results_invariant_to_amplitude_and_global_sign(h in 0.4f32..4.0, phase in -3.0f32..3.0, k in 1e-3f32..1e3, flip in any::<bool>()) {
-        // The same walk read at another strength, phase and sign gives the same answers.
-        let sgn = if flip { -k } else { k };
-        let mut a = Receiver::new(settings()).unwrap();
-        let mut b = Receiver::new(settings()).unwrap();
-        let (da, db) = (walk_detections(h, 0.3, 1.0), walk_detections(h, phase, sgn));
-        // The same decisions, except where a threshold lies within f32 rounding of a readout
-        // (a decision may then come a few readouts earlier or later): at most 5 % of the walk.
-        let (mut depths, mut differ) = (0, 0);
-        for (x, y) in da.iter().zip(&db) {
-            let mut y = *y;
-            y.noise_sigma = [k * 1e-4; 4];
-            let (ra, rb) = (a.locate(x), b.locate(&y));
-            if (ra.guidance.along, ra.guidance.across, ra.state, ra.gradient.is_ok()) != (rb.guidance.along, rb.guidance.across, rb.state, rb.gradient.is_ok()) {
-                differ += 1;
-            }
-            if let (Ok(p), Ok(q)) = (ra.gradient, rb.gradient) {
-                depths += 1;
-                prop_assert!((p.depth_m - q.depth_m).abs() < 1e-3 * p.depth_m);
-            }
-        }
-        prop_assert!(differ * 20 <= da.len(), "{differ} of {} readouts decided differently", da.len());
-        prop_assert!(depths > 0, "the walk never reached a depth");
-    }
 
     #[test]
     fn bearing_follows_a_rotation_of_the_head(heading in -1.4f32..1.4, h in 0.5f32..4.0) {

@@ -29,7 +29,8 @@ fn six() -> ReceiverSettings<6> {
 
 #[test]
 fn six_coil_fix_off_the_peak() {
-    // From one position 0.5 m behind and 0.3 m right of the sonde, the fix reports offsets and depth.
+    // From one position 0.5 m behind and 0.3 m right of the sonde, the fix reports offsets and depth
+    // (dipole field, Griffiths eq. 5.89, through `Head::readings`).
     let head = Head::triads6();
     let src = Source::Dipole { moment_am2: from_yaw_pitch(0.2, 0.0), pos_m: [0.5, -0.3, -1.6] };
     let r = head.readings(&src, [0.0; 3], 0.0).map(|v| v * 1e9);
@@ -38,12 +39,13 @@ fn six_coil_fix_off_the_peak() {
     let fix = out.fix.expect("fit ran");
     assert!(fix.converged);
     assert!((fix.ahead_m.value - 0.5).abs() < 0.01 && (fix.left_m.value + 0.3).abs() < 0.01, "{fix:?}");
-    let d = out.fit_depth.expect("fit depth");
-    assert!((d.depth_m - 1.6).abs() < 0.01 && d.sigma_m > 0.0, "{d:?}");
-    assert!(out.gradient.is_err(), "off the peak: gradient withheld");
-    // The guidance comes from the fix: the sonde is ahead and to the right.
-    assert_eq!(out.guidance.direction(), 1, "{:?}", out.guidance);
-    assert_eq!(out.guidance.side(), -1, "{:?}", out.guidance);
+    assert!((fix.depth_m.value - 1.6).abs() < 0.01 && fix.depth_m.sigma > 0.0, "{fix:?}");
+    // Off the point over the sonde no depth is shown, whatever the method, and one readout
+    // is no trail: the receiver says why and gives no direction yet.
+    assert_eq!(out.fit_depth, Err(undertone_dsp::locate::depth::Withheld::NotOver));
+    assert!(out.gradient.is_err() && out.depth.is_none(), "off the peak: depth withheld");
+    assert_eq!(out.guidance.direction(), 0, "{:?}", out.guidance);
+    assert_eq!(out.guidance.why, Some(undertone_dsp::locate::depth::Withheld::NeedsMotion), "{:?}", out.guidance);
 }
 
 #[test]

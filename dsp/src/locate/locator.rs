@@ -241,6 +241,10 @@ pub struct Locator<const N: usize> {
     held_fix: Option<Fix>,
     readouts: u32,
     last_depth_m: Option<f32>,
+    /// The trail has spanned a fair baseline since it began (see [`Locator::directions`]).
+    established: bool,
+    /// Seconds since the last move asked for ended (the readouts catch up with the head).
+    quiet_s: f32,
 }
 
 /// The best lateral prior a fit can take when nothing is known (y/h within ±3).
@@ -285,6 +289,8 @@ impl<const N: usize> Locator<N> {
             held_fix: None,
             readouts: 0,
             last_depth_m: None,
+            established: false,
+            quiet_s: 0.0,
         })
     }
 
@@ -311,6 +317,7 @@ impl<const N: usize> Locator<N> {
     /// Forget what was learnt from earlier readouts (after a converter restart or a settings change).
     pub fn forget(&mut self) {
         self.trail.clear();
+        self.established = false;
         self.request = None;
         self.sweep_legs = [0.0; 2];
         self.last_fix = None;
@@ -402,6 +409,7 @@ impl<const N: usize> Locator<N> {
         }
         if self.lost_for_s > LOST_S {
             self.trail.clear();
+            self.established = false;
             self.request = None;
             self.sweep_legs = [0.0; 2];
             self.lost_for_s = 0.0;
@@ -422,10 +430,24 @@ impl<const N: usize> Locator<N> {
         } else if settling {
             Guidance::unsure(Withheld::Settling, Hint::Wait)
         } else {
+            // A fit on a short baseline can be confidently wrong (near and weak against far
+            // and strong): directions only once the trail has spanned a fair way. The window
+            // of stations may later shrink to the last metre of small moves; the fit keeps
+            // what the long baseline settled (its σ say what the window still supports).
+            match place {
+                Some(p) if p.stations < MIN_STATIONS => self.established = false,
+                Some(p) => {
+                    let h = h_hint.unwrap_or(p.depth_m.value).max(0.05);
+                    self.established |= p.span_m >= (0.3 * h).max(0.5);
+                }
+                None => {}
+            }
             self.directions(place.as_ref(), h_hint, clipped, distorted, out_of_line)
         };
         guidance.vertical_ratio = field.vertical_ratio();
-        self.moves(&mut guidance, place.as_ref(), present && !settling, field.total);
+        self.quiet_s = if self.trail.moving() { 0.0 } else { self.quiet_s + dt };
+        let quiet = self.quiet_s >= (2.0 * timing.group_delay_s).max(MOVE_QUIET_S);
+        self.moves(&mut guidance, place.as_ref(), present && !settling, field.total, quiet);
         self.last_hint = guidance.hint;
         // 7. Depths.
         let gate = self.depth_gate(signal, settling, clipped, distorted, place.as_ref(), &guidance);
@@ -494,8 +516,8 @@ impl<const N: usize> Locator<N> {
         for v in sig.iter_mut() {
             *v = v.max(1e-30);
         }
-        // The trail's lateral offset over its depth, as a prior.
-        let prior = match place {
+        // The trail's lateral offset over its depth, as a prior (once the trail is established).
+        let prior = match place.filter(|_| self.established) {
             Some(p) if p.left_m.sigma.is_finite() && p.depth_m.value > 0.0 => LateralPrior {
                 left_over_depth: p.left_m.value / p.depth_m.value,
                 sigma: (p.left_m.sigma / p.depth_m.value).clamp(0.02, VAGUE_SIGMA),
@@ -521,7 +543,7 @@ impl<const N: usize> Locator<N> {
     /// is done the next leg of a sweep is asked for, or a new move from the directions:
     /// near the sonde every step is a move of the distance shown (walk it and stop), so
     /// the trail knows how far the head went.
-    fn moves(&mut self, g: &mut Guidance, place: Option<&Place>, present: bool, total: f32) {
+    fn moves(&mut self, g: &mut Guidance, place: Option<&Place>, present: bool, total: f32, quiet: bool) {
         if !present {
             // The tone is lost after a move: go back the way the move went, once.
             if let Some(r) = self.request.take().or(self.last_move) {
@@ -556,7 +578,15 @@ impl<const N: usize> Locator<N> {
             self.last_move = Some(r);
         }
         let leg = self.sweep_legs[0];
-        let (hint, dist) = if leg != 0.0 && g.hint != Hint::HoldStill {
+        if !quiet {
+            // Just after a move the directions still carry the motion (the readouts lag
+            // the head by the detector's group delay): stand until they have caught up.
+            g.hint = Hint::HoldStill;
+            g.move_m = None;
+            return;
+        }
+        // A sweep goes on to its end unless the head is found over the sonde or must turn.
+        let (hint, dist) = if leg != 0.0 && !g.over() && g.hint != Hint::TurnInLine {
             self.sweep_legs = [self.sweep_legs[1], 0.0];
             (self.sweep_hint, leg)
         } else {
@@ -635,6 +665,15 @@ impl<const N: usize> Locator<N> {
             g.why = Some(Withheld::Distorted);
             return g;
         }
+        // Until the trail has spanned a fair way, no direction and no depth.
+        let established = self.established;
+        if !established {
+            g.ahead = None;
+            g.left = None;
+            g.why = Some(Withheld::NeedsMotion);
+            g.hint = if out_of_line { Hint::TurnInLine } else { Hint::WalkAlong };
+            return g;
+        }
         // A readout describes the field a little before it is shown; "over" only while still.
         let still = p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h && self.still_for_s > 0.0;
         let (a, sa) = (p.ahead_m.value, p.ahead_m.sigma);
@@ -690,9 +729,6 @@ impl<const N: usize> Locator<N> {
         let walk = if a > 0.0 { Hint::WalkAhead } else { Hint::WalkBack };
         let step = if l > 0.0 { Hint::StepLeft } else { Hint::StepRight };
         let far = libm::hypotf(a, l) > (1.5 * h).max(1.0);
-        // A fit on a short baseline can be confidently wrong (near and weak against far and
-        // strong): until the head has moved a fair way, explore along the field.
-        let established = p.stations >= MIN_STATIONS && p.span_m >= (0.3 * h).max(0.5);
         g.hint = if !established {
             if out_of_line {
                 Hint::TurnInLine
@@ -715,6 +751,9 @@ impl<const N: usize> Locator<N> {
             match g.along {
                 Along::Ahead | Along::Behind => walk,
                 Along::Over if g.across == Across::Centred => Hint::HoldStill,
+                // Within the tolerance along but well off the middle of it, and known to be:
+                // close in along first (the lateral offset is read with less error there).
+                Along::Over | Along::Unsure if within_a && libm::fabsf(a) > 0.4 * tol && sa < 0.5 * libm::fabsf(a) => walk,
                 Along::Over | Along::Unsure if within_a && !settled => Hint::HoldStill,
                 // Placed along, not across: the strength across the axis peaks over it.
                 Along::Over | Along::Unsure if within_a => {
@@ -916,6 +955,9 @@ pub const EXPLORE_M: f32 = 0.5;
 pub const MAX_MOVE_M: f32 = 1.0;
 /// Seconds to stand still near the point over the sonde before the receiver asks for a sweep.
 pub const SETTLE_S: f32 = 2.0;
+/// Least pause after a move before the next is asked for, s (at least twice the
+/// detector's group delay).
+pub const MOVE_QUIET_S: f32 = 0.6;
 /// Relative error of the dipole model at the depths a receiver reads (the
 /// sonde's coil is not a point; within 1 % beyond three coil lengths, see the
 /// exact-loop table in the field module).

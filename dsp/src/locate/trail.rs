@@ -130,6 +130,8 @@ struct Pending<const N: usize> {
     first: usize,
     start_t: f32,
     changed: bool,
+    /// When the readouts first changed (the person set off, perhaps a while after the ask).
+    moved_at: Option<f32>,
     steady_since: Option<f32>,
     last: [f32; N],
 }
@@ -170,7 +172,7 @@ impl Default for TrailSettings {
             period_s: 0.25,
             step_sigma_m: 0.3,
             drift_sigma_m: 0.01,
-            heading_sigma_rad: 0.035,
+            heading_sigma_rad: 0.0087,
             pitch_prior_rad: 0.35,
             gain_tolerance: 0.01,
             relative_floor: 0.001,
@@ -338,6 +340,9 @@ pub struct Trail<const N: usize> {
     last_dt_s: f32,
     turn_until: f32,
     pending: Option<Pending<N>>,
+    /// The best fit's covariances (shared unknowns, last station) while no fit has moved
+    /// since they were computed: a readout pooled into a station reuses them.
+    cov: Option<([[f32; G]; G], M3)>,
 }
 
 /// Per-station measurement terms: whitened residuals and Jacobians.
@@ -373,6 +378,7 @@ impl<const N: usize> Trail<N> {
             last_dt_s: 0.0,
             turn_until: f32::NEG_INFINITY,
             pending: None,
+            cov: None,
         }
     }
 
@@ -382,6 +388,7 @@ impl<const N: usize> Trail<N> {
         self.hyp = [Hyp::DEAD; HYPOTHESES];
         self.last_t = f32::NEG_INFINITY;
         self.pending = None;
+        self.cov = None;
     }
 
     /// A move asked for is under way (the readouts wait for the head to stop).
@@ -436,7 +443,15 @@ impl<const N: usize> Trail<N> {
                 // Readouts during the move make stations of their own (they keep the
                 // directions shown up to date); once the head stops they give way to the
                 // station after the move, tied to the one before by the distance asked for.
-                self.pending = Some(Pending { req, first: self.len, start_t: rd.t_s, changed: false, steady_since: None, last: rd.signed });
+                self.pending = Some(Pending {
+                    req,
+                    first: self.len,
+                    start_t: rd.t_s,
+                    changed: false,
+                    moved_at: None,
+                    steady_since: None,
+                    last: rd.signed,
+                });
                 forced = Some(rd.motion);
             }
             (_, Some(mut p)) => {
@@ -451,24 +466,29 @@ impl<const N: usize> Trail<N> {
                     .sum();
                 if chi2 > N as f32 + 4.0 * libm::sqrtf(2.0 * N as f32) {
                     p.changed = true;
+                    p.moved_at.get_or_insert(rd.t_s);
                     p.steady_since = Some(rd.t_s);
                     p.last = rd.signed.map(|v| sg * v);
                 }
                 let dist = libm::hypotf(p.req.ahead_m, p.req.left_m);
                 let least = dist / MOVE_PACE_M_S;
                 let settle = STEADY_S.max(2.0 * rd.group_delay_s);
-                let elapsed = rd.t_s - p.start_t;
+                // The clock of the move runs from when the head set off; one that never
+                // sets off is given START_GRACE_S to start.
+                let elapsed = rd.t_s - p.moved_at.unwrap_or(p.start_t + START_GRACE_S);
                 let steady = rd.t_s - p.steady_since.unwrap_or(p.start_t) >= settle;
                 if elapsed >= least + settle && steady {
                     let anchored = p.first >= 1 && p.first <= self.len;
-                    forced = Some(if anchored && (p.changed || dist < 0.05) {
+                    // A person who did not move stays tied to the place before.
+                    forced = Some(if !p.changed {
+                        Motion::Hold
+                    } else if anchored {
                         // The distance asked for, shared among the links made during the
                         // move in proportion to their time (a steady pace), its σ likewise
                         // (the pace's error as independent increments).
-                        // The move began when the hint was shown (a readout interval before the
-                        // first readout that carried it, its data a group delay older) and ended
-                        // with the last change the readouts saw.
-                        let t0 = p.start_t - self.last_dt_s + rd.group_delay_s;
+                        // The move began a readout before the readouts first changed and
+                        // ended with the last change they saw.
+                        let t0 = p.moved_at.unwrap_or(p.start_t) - self.last_dt_s;
                         let mut t1 = p.steady_since.unwrap_or(rd.t_s);
                         if t1 <= t0 + 0.1 {
                             t1 = t0 + least;
@@ -498,7 +518,7 @@ impl<const N: usize> Trail<N> {
                         Motion::Free
                     });
                     self.pending = None;
-                } else if elapsed > 2.0 * least + MOVE_TIMEOUT_S {
+                } else if elapsed > 1.5 * least + MOVE_TIMEOUT_S || self.len >= p.first + MAX_MOVE_STATIONS {
                     // Never stopped: the stations made on the way stay, as they are.
                     self.pending = None;
                 } else {
@@ -529,9 +549,16 @@ impl<const N: usize> Trail<N> {
                 }
             }
         }
+        // Every fit moves on when a station is added; between stations (a readout pooled
+        // into the last one) only the best takes a step, which keeps the cost per readout
+        // near one iteration (BENCHMARKS.md).
+        // A long station (the head standing) steps less and less often.
+        let best = self.best();
+        let n = self.st[self.len.saturating_sub(1)].n;
+        let due = n < 8 || n.is_multiple_of(8);
         for k in 0..HYPOTHESES {
-            if self.hyp[k].live {
-                self.iterate(k, ITERATIONS);
+            if self.hyp[k].live && (new_station || (due && best == Some(k))) {
+                self.iterate(k, if new_station { ITERATIONS } else { 1 });
             }
         }
         if new_station && self.cut_links() {
@@ -541,7 +568,9 @@ impl<const N: usize> Trail<N> {
                 }
             }
         }
-        self.reseed();
+        if new_station {
+            self.reseed();
+        }
         self.place(rd.t_s, rd.group_delay_s)
     }
 
@@ -563,7 +592,8 @@ impl<const N: usize> Trail<N> {
             let moved = chi2 > N as f32 + 4.0 * libm::sqrtf(2.0 * N as f32);
             let age = rd.t_s - last.t0;
             let long = age >= period;
-            let jump = chi2 > 100.0 * N as f32 && rd.motion != Motion::Turn;
+            // A jump of a head meant to stand still (a moving head's stations follow the period).
+            let jump = chi2 > 100.0 * N as f32 && rd.motion == Motion::Hold && self.pending.is_none();
             // A moving head's station is closed after a few periods even when the noise
             // hides the change (a station stands for one place).
             let stale = rd.motion != Motion::Hold && age >= MAX_STATION_S;
@@ -571,8 +601,7 @@ impl<const N: usize> Trail<N> {
             let turning = rd.motion == Motion::Turn && age >= TURN_STATION_S;
             // Stations made during a move are for the directions shown meanwhile; they give
             // way when it ends, so they never push older stations out of the window.
-            let crowded = self.pending.map(|p| self.len >= p.first + MAX_MOVE_STATIONS || self.len == STATIONS).unwrap_or(false);
-            if crowded || !((moved && long) || jump || stale || turning) {
+            if !((moved && long) || jump || stale || turning) {
                 let st = &mut self.st[self.len - 1];
                 for c in 0..N {
                     st.sum[c] += s * rd.signed[c];
@@ -1001,6 +1030,7 @@ impl<const N: usize> Trail<N> {
 
     /// `iters` Levenberg–Marquardt iterations of fit `k`.
     fn iterate(&mut self, k: usize, iters: usize) {
+        self.cov = None;
         let (c0, chi0) = self.cost(&self.hyp[k]);
         self.hyp[k].cost = c0;
         self.hyp[k].chi2 = chi0;
@@ -1114,11 +1144,18 @@ impl<const N: usize> Trail<N> {
     }
 
     /// Where the best fit puts the sonde now.
-    fn place(&self, t_s: f32, group_delay_s: f32) -> Option<Place> {
+    fn place(&mut self, t_s: f32, group_delay_s: f32) -> Option<Place> {
         let b = self.best()?;
+        let (cov_g, cov_last) = match self.cov {
+            Some(c) => c,
+            None => {
+                let n = self.normal(&self.hyp[b]);
+                let sol = self.solve(&n, 0.0).or_else(|| self.solve(&n, 1e-4)).unwrap_or(Solution::UNKNOWN);
+                self.cov = Some((sol.cov_g, sol.cov_last));
+                (sol.cov_g, sol.cov_last)
+            }
+        };
         let h = &self.hyp[b];
-        let n = self.normal(h);
-        let sol = self.solve(&n, 0.0).or_else(|| self.solve(&n, 1e-4)).unwrap_or(Solution::UNKNOWN);
         let last = self.len - 1;
         let l = h.loc[last];
         let sd = |v: f32| libm::sqrtf(v.max(0.0));
@@ -1164,8 +1201,8 @@ impl<const N: usize> Trail<N> {
         let lag = (t_s - self.st[last].t_mid() + group_delay_s).clamp(0.0, 1.0);
         let (ax, ay) = (l[0] - vx * lag, l[1] - vy * lag);
         let carry = 0.3 * speed * lag;
-        let ahead_m = Estimate { value: ax, sigma: libm::hypotf(sd(sol.cov_last[0][0]), carry) };
-        let left_m = Estimate { value: ay, sigma: libm::hypotf(sd(sol.cov_last[1][1]), carry) };
+        let ahead_m = Estimate { value: ax, sigma: libm::hypotf(sd(cov_last[0][0]), carry) };
+        let left_m = Estimate { value: ay, sigma: libm::hypotf(sd(cov_last[1][1]), carry) };
         // Alternatives that explain the readings as well and put the sonde elsewhere.
         let tol = crate::locate::guidance::over_tolerance_m(h.glob[IH]);
         let (mut amb_a, mut amb_l, mut runner) = (false, false, f32::INFINITY);
@@ -1194,9 +1231,9 @@ impl<const N: usize> Trail<N> {
         Some(Place {
             ahead_m,
             left_m,
-            depth_m: Estimate { value: h.glob[IH], sigma: sd(sol.cov_g[IH][IH]) },
-            pitch_rad: Estimate { value: h.glob[IA], sigma: sd(sol.cov_g[IA][IA]) },
-            yaw_rad: Estimate { value: l[2], sigma: sd(sol.cov_last[2][2]) },
+            depth_m: Estimate { value: h.glob[IH], sigma: sd(cov_g[IH][IH]) },
+            pitch_rad: Estimate { value: h.glob[IA], sigma: sd(cov_g[IA][IA]) },
+            yaw_rad: Estimate { value: l[2], sigma: sd(cov_last[2][2]) },
             upper_gain_error: h.glob[IG],
             chi2: h.chi2,
             dof,
@@ -1221,7 +1258,7 @@ pub const MIN_DEPTH_M: f32 = 0.1;
 pub const MAX_DEPTH_M: f32 = 30.0;
 
 /// Most stations kept during one move.
-const MAX_MOVE_STATIONS: usize = 12;
+const MAX_MOVE_STATIONS: usize = 24;
 /// A station while the head turns spans at most this long, s.
 const TURN_STATION_S: f32 = 0.25;
 /// Floor of a reading's σ while the head turns, relative to the field: the detector's
@@ -1233,8 +1270,10 @@ const STEADY_S: f32 = 0.4;
 /// The pace a move of a set distance is expected at (the hint asks for a slow
 /// walk or step; a faster person simply stands a moment longer), m/s.
 pub const MOVE_PACE_M_S: f32 = 0.2;
-/// Time allowed for a move beyond twice the expected, s.
-const MOVE_TIMEOUT_S: f32 = 4.0;
+/// Time allowed for a move beyond one and a half times the expected, s.
+const MOVE_TIMEOUT_S: f32 = 2.0;
+/// Time a person is given to set off on a move asked for, s.
+const START_GRACE_S: f32 = 1.5;
 /// Relative σ of a move of a set distance (a person paces it to about a fifth).
 const MOVE_RELATIVE: f32 = 0.2;
 /// Least σ of a move of a set distance, m.
@@ -1321,6 +1360,7 @@ mod tests {
                 motion: Motion::Along,
                 noise_corr_s: 0.05,
                 group_delay_s: 0.0,
+                request: None,
             };
             match tr.update(&rd) {
                 Some(p) if p.consistent => out.push((ax, ay, p)),
