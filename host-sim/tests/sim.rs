@@ -25,7 +25,7 @@ fn demo_walks_find_the_peak_and_the_nulls() {
     let sc = Scenario::demo();
     let run = simulate(&sc, None, None).unwrap();
     let s = summarise(&sc, &run).unwrap();
-    // The null span along the axis walk (h = span/√2 for a level sonde, REFERENCES §1) within 3 %.
+    // The null span along the axis walk (h = span/√2 for a level sonde, from Griffiths eq. 5.89) within 3 %.
     let ns = s.walks.iter().find_map(|w| w.null_span.clone()).expect("the axis walk has nulls");
     assert!(ns.error_pct.unwrap().abs() < 3.0, "{ns:?}");
     // Its nulls sit h/√2 = 1.13 m either side of the point over the sonde (level dipole,
@@ -62,11 +62,11 @@ fn same_seed_same_samples_other_seed_other_noise() {
 
 #[test]
 fn synthetic_physics_matches_published_values() {
-    // Dipole spot values, REFERENCES §1 (derived from Griffiths eq. 5.89, agree with magpylib).
+    // Dipole spot values derived from Griffiths, Introduction to Electrodynamics, eq. 5.89 (they agree with the magpylib library).
     let b = dipole([1.0, 0.0, 0.0], [0.0; 3], [0.5, 0.0, 1.0]);
     assert!((b[0] / -2.86217e-8 - 1.0).abs() < 1e-5 && (b[2] / 8.58650e-8 - 1.0).abs() < 1e-5);
     // Skin depth δ = 503.29·√(ρ/f) m: wet clay 1 Ω·m at 32768 Hz → 2.780 m; 100 Ω·m at 512 Hz → 222.43 m
-    // (REFERENCES §8; Griffiths §9.4, section from memory).
+    // (Griffiths §9.4, section from memory).
     assert!((skin_depth_m(32768.0, 1.0) - 2.780).abs() < 1e-3);
     assert!((skin_depth_m(512.0, 0.01) - 222.43).abs() < 0.01);
 }

@@ -26,7 +26,7 @@ fn grad(model: FieldModel, lo: f32, up: f32, at: Offsets) -> DepthEstimate {
 
 #[test]
 fn gradient_depth_round_trip_noise_free() {
-    // h = s/(R^(1/3) − 1) (REFERENCES §1, derived from eq. 5.89): 0.3 m to 6 m to 1e-4 relative.
+    // h = s/(R^(1/3) − 1) (derived from Griffiths, Introduction to Electrodynamics, eq. 5.89): 0.3 m to 6 m to 1e-4 relative.
     let head = Head::reference4();
     for i in 0..=57 {
         let h = 0.3 + 0.1 * i as f32;
@@ -84,7 +84,7 @@ fn gradient_depth_with_known_offsets() {
 
 #[test]
 fn gradient_sensitivity_matches_published_table() {
-    // dh/h per dR/R = −(h+s)/(3s): s = 0.4, h = 1 → −1.167; h = 2 → −2.000 (REFERENCES §1 table).
+    // dh/h per dR/R = −(h+s)/(3s): s = 0.4, h = 1 → −1.167; h = 2 → −2.000 (derived by differentiating that expression).
     // The gain tolerance enters as σ_R/R: a 1 % tolerance gives σ_h/h = 1.167 % and 2.000 %.
     for (h, want) in [(1.0f32, 1.167f32), (2.0, 2.000)] {
         let r = ((h + 0.4) / h).powi(3);
@@ -137,8 +137,8 @@ fn gradient_sigma_matches_observed_scatter() {
 
 #[test]
 fn null_span_depth_level_and_pitched() {
-    // Level: nulls at ±h/√2 from the peak, so h = span/√2 (REFERENCES §1; the trade's 0.7 × span).
-    // Pitched: the nulls are the roots of 2x²cos α + 3hx sin α − h²cos α = 0 (REFERENCES §1,
+    // Level: nulls at ±h/√2 from the peak, so h = span/√2 (from Griffiths eq. 5.89; the 0.7 × span rule is common practice).
+    // Pitched: the nulls are the roots of 2x²cos α + 3hx sin α − h²cos α = 0 (from Griffiths eq. 5.89,
     // derived); the peak is found here by a dense search of Bx from Griffiths eq. 5.89 in f64.
     for (h, alpha_deg) in [(1.0f64, 0.0f64), (2.0, 10.0), (1.2, -20.0), (3.0, 30.0), (0.6, 5.0)] {
         let a = alpha_deg.to_radians();

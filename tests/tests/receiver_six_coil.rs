@@ -72,7 +72,7 @@ fn distorted_field_is_flagged_when_calibrated() {
 #[test]
 fn gain_calibration_corrects_upper_coil_mismatch() {
     // Upper coil 3 % hot: uncorrected gradient depth is wrong; after calibration at 1.0 m
-    // the depth at 2.0 m comes out right (h = s/(R^(1/3) − 1), REFERENCES §1).
+    // the depth at 2.0 m comes out right (h = s/(R^(1/3) − 1), derived from the dipole field, Griffiths, Introduction to Electrodynamics, eq. 5.89).
     let head = Head::reference4();
     let read = |h: f32| {
         head.readings(&Source::Dipole { moment_am2: [1.0, 0.0, 0.0], pos_m: [0.0, 0.0, -h] }, [0.0; 3], 0.0).map(|v| v.abs() * 1e9)
