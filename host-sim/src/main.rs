@@ -170,16 +170,16 @@ enum Command {
     /// The receiver in closed loop: a simulated operator, from random starts, does only what
     /// the receiver tells them until it says "over" and shows a depth.
     ///
-    /// The operator's procedure, each readout: "wait": stand still; "turn in line": turn on the
-    /// spot toward the field (30°/s) until the bearing reads within 5°; "walk along": walk forward
-    /// along the handle at 0.3 m/s keeping the heading, back after 3 m without an answer;
-    /// "walk ahead"/"walk back": walk that way at 0.3 m/s, 0.1 m/s within 0.3 m of the point
-    /// shown; "sweep along": 0.3 m forward and back at 0.2 m/s; "step left"/"step right": step
-    /// sideways the distance shown at 0.2 m/s, then sweep along; "hold still": stand, and once a
-    /// depth has been shown for 1 s mark the spot and read it. A start is located when the spot
-    /// is within max(0.15 m, 0.1·depth) of the point over the sonde and the depth within 2σ and
-    /// 5 % of the truth (120 s at most). Starts are uniform within the detection range with a
-    /// random heading, where the best coil reads at least 20 dB.
+    /// The operator's procedure, each readout: a move of a set distance (the hint shows one:
+    /// walk ahead/back, step left/right, a leg of a sweep): move it along the handle or sideways
+    /// at 0.2 m/s keeping the heading, stop, and stand 0.8 s reading the screen; "wait": stand
+    /// still; "turn in line": turn on the spot toward the field (30°/s) while asked; "walk
+    /// along" without a distance: walk forward at 0.3 m/s, back after 3 m without an answer;
+    /// "hold still": stand, and once a depth has been shown for 1 s mark the spot and read it.
+    /// A start is located when the spot is within max(0.15 m, 0.1·depth) of the point over the
+    /// sonde and the depth within 2σ and 5 % of the truth (300 s at most). Starts are uniform
+    /// within the detection range with a random heading, where the best coil reads at least
+    /// 20 dB.
     Locate {
         /// Scenario TOML file (its sonde, receiver, noise and ground; its motion is not used).
         scenario: PathBuf,

@@ -560,7 +560,10 @@ where
     }
     for (name, pts, col) in &h.tracks {
         c.draw_series(LineSeries::new(pts.clone(), col.stroke_width(3)))?;
-        keys.push((name.clone(), Key::Series(Style::Line, *col)));
+        // Unnamed tracks share the key of the first of their kind.
+        if !name.is_empty() {
+            keys.push((name.clone(), Key::Series(Style::Line, *col)));
+        }
     }
     for (name, pts, col) in &h.marks {
         let col = *col;

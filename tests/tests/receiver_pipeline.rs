@@ -253,8 +253,51 @@ fn results_invariant_to_amplitude_and_global_sign() {
     assert!(alike >= 36, "{alike} of {LOOPS} alike");
 }
 
+fn any_value() -> impl Strategy<Value = f32> {
+    prop_oneof![
+        Just(f32::NAN),
+        Just(f32::INFINITY),
+        Just(f32::NEG_INFINITY),
+        Just(0.0f32),
+        Just(1e30f32),
+        Just(-1e-30f32),
+        Just(f32::MIN_POSITIVE / 4.0),
+        -10.0f32..10.0
+    ]
+}
+
 proptest! {
     #![proptest_config(ProptestConfig::with_cases(cases(64)))]
+
+    #[test]
+    fn locate_outputs_stay_finite_on_any_input(
+        steps in prop::collection::vec((any::<bool>(), -3.0f32..3.0, -2.0f32..2.0, prop::array::uniform8(any_value()), prop::array::uniform4(any_value())), 1..8),
+        h in 0.3f32..4.0,
+    ) {
+        // Readouts of a head anywhere near the sonde, clean or garbage (NaN, infinities,
+        // zeros, huge, subnormal): whatever comes in, every number that goes out is finite
+        // or absent, and every σ shown is positive.
+        let mut rx = Receiver::new(settings()).unwrap();
+        for (i, (clean, x, y, p, s)) in steps.iter().enumerate() {
+            let mut d = det(h, *x, *y, i as f64 * 0.05, 0.3, 1.0);
+            if !clean {
+                d.phasors = std::array::from_fn(|c| C32::new(p[2 * c], p[2 * c + 1]));
+                d.noise_sigma = *s;
+            }
+            let r = rx.locate(&d);
+            prop_assert!(r.strength.is_finite() && r.strength_db.is_finite() && r.bearing_deg.is_finite() && r.snr_db.is_finite(), "{r:?}");
+            prop_assert!(r.guidance.vertical_ratio.is_finite());
+            for d in [r.gradient, r.known_moment].into_iter().flatten() {
+                prop_assert!(d.depth_m.is_finite() && d.sigma_m.is_finite() && d.sigma_m > 0.0, "{d:?}");
+            }
+            if let Some(d) = r.depth {
+                prop_assert!(d.depth.depth_m.is_finite() && d.depth.sigma_m > 0.0 && d.below_ground_m.is_finite(), "{d:?}");
+            }
+            for d in [r.guidance.ahead, r.guidance.left].into_iter().flatten() {
+                prop_assert!(d.value_m.is_finite() && d.sigma_m.is_finite(), "{d:?}");
+            }
+        }
+    }
 
     #[test]
     fn bearing_follows_a_rotation_of_the_head(heading in -1.4f32..1.4, h in 0.5f32..4.0) {
