@@ -568,6 +568,16 @@ impl<const N: usize> Locator<N> {
             return;
         }
         self.back = None;
+        if g.over() {
+            // Over the sonde: whatever move was under way is done; stand and read the depth.
+            if let Some(r) = self.request.take() {
+                self.last_move = Some(r);
+            }
+            self.sweep_legs = [0.0; 2];
+            g.hint = Hint::HoldStill;
+            g.move_m = None;
+            return;
+        }
         if let Some(r) = self.request.filter(|_| self.trail.moving()) {
             g.hint = self.request_hint;
             g.move_m = Some(if matches!(g.hint, Hint::StepLeft | Hint::StepRight | Hint::SweepAcross) { r.left_m } else { r.ahead_m });
