@@ -96,6 +96,30 @@ pub struct StartResult {
     pub path: Vec<(f64, f64)>,
 }
 
+/// `v` to a millimetre (or a millisecond): what JSON readers need, without float noise.
+fn mm(v: f64) -> f64 {
+    (v * 1000.0).round() / 1000.0
+}
+
+impl StartResult {
+    /// The same, its numbers rounded to 1e-3 for printing.
+    pub fn rounded(&self) -> Self {
+        let o = |v: Option<f64>| v.map(mm);
+        Self {
+            from: self.from.map(mm),
+            time_s: mm(self.time_s),
+            stop: self.stop.map(mm),
+            miss_m: mm(self.miss_m),
+            tolerance_m: mm(self.tolerance_m),
+            depth_m: o(self.depth_m),
+            depth_sigma_m: o(self.depth_sigma_m),
+            true_depth_m: mm(self.true_depth_m),
+            depth_error_pct: o(self.depth_error_pct),
+            ..self.clone()
+        }
+    }
+}
+
 /// The summary of a run.
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct LocateSummary {
@@ -135,8 +159,8 @@ pub fn summarise(sc: &Scenario, results: &[StartResult]) -> Result<LocateSummary
     Ok(LocateSummary {
         starts: results.len(),
         located: results.iter().filter(|r| r.located).count(),
-        median_time_s: crate::stats::median(&mut times),
-        detection_range_m: detection_range_m(sc)?,
+        median_time_s: crate::stats::median(&mut times).map(mm),
+        detection_range_m: mm(detection_range_m(sc)?),
         caution: crate::report::CAUTION_LINE,
     })
 }
@@ -420,8 +444,12 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
     let summary = summarise(sc, &results)?;
     if json {
         for r in &results {
-            writeln!(out, "{}", serde_json::to_string(r).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?)
-                .map_err(io)?;
+            writeln!(
+                out,
+                "{}",
+                serde_json::to_string(&r.rounded()).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?
+            )
+            .map_err(io)?;
         }
         writeln!(out, "{}", serde_json::to_string(&summary).map_err(|e| SimError::Arg { name: "json".into(), msg: e.to_string() })?)
             .map_err(io)?;
