@@ -169,6 +169,18 @@ fn garbage(rng: &mut StdRng) -> Garbage {
 /// checks count successes over a seeded set instead of requiring every case.
 const LOOPS: usize = 40;
 
+/// A person starting 2h behind the sonde on its axis doing as asked, 20 readouts/s, until
+/// five depths have been shown or 240 s have passed.
+fn locate_from_behind(
+    rx: &mut Receiver<4>,
+    h: f32,
+    detect: impl FnMut(f32, f32, f64) -> undertone_dsp::Detection<4>,
+) -> Vec<undertone_tests::operator::Shown<4>> {
+    undertone_tests::operator::follow(rx, (-2.0 * h, 0.0), 0.05, 240.0, detect, |v| {
+        v.iter().filter(|s| s.readout.depth.is_some()).count() >= 5
+    })
+}
+
 #[test]
 fn locate_never_emits_non_finite() {
     // A person locating the sonde (starting 2h behind it on its axis, doing as asked) with
@@ -181,22 +193,15 @@ fn locate_never_emits_non_finite() {
         let bad: Vec<(usize, Garbage)> = (0..rng.random_range(0..6)).map(|_| (rng.random_range(0..400), garbage(&mut rng))).collect();
         let mut rx = Receiver::new(settings()).unwrap();
         let mut n = 0usize;
-        let shown = undertone_tests::operator::follow(
-            &mut rx,
-            (-2.0 * h, 0.0),
-            0.05,
-            240.0,
-            |x, y, t| {
-                let mut d = det(h, x, y, t, 0.3, 1.0);
-                if let Some((_, (p, s))) = bad.iter().find(|b| b.0 == n) {
-                    d.phasors = *p;
-                    d.noise_sigma = *s;
-                }
-                n += 1;
-                d
-            },
-            |v| v.iter().filter(|s| s.readout.depth.is_some()).count() >= 5,
-        );
+        let shown = locate_from_behind(&mut rx, h, |x, y, t| {
+            let mut d = det(h, x, y, t, 0.3, 1.0);
+            if let Some((_, (p, s))) = bad.iter().find(|b| b.0 == n) {
+                d.phasors = *p;
+                d.noise_sigma = *s;
+            }
+            n += 1;
+            d
+        });
         for s in &shown {
             let r = &s.readout;
             assert!(r.strength.is_finite() && r.strength_db.is_finite() && r.bearing_deg.is_finite() && r.snr_db.is_finite(), "{r:?}");
@@ -227,14 +232,7 @@ fn results_invariant_to_amplitude_and_global_sign() {
         let k = 10f32.powf(rng.random_range(-3.0f32..3.0)) * if rng.random_range(0..2) == 0 { -1.0 } else { 1.0 };
         let run = |phase: f32, k: f32| {
             let mut rx = Receiver::new(settings()).unwrap();
-            let shown = undertone_tests::operator::follow(
-                &mut rx,
-                (-2.0 * h, 0.0),
-                0.05,
-                240.0,
-                |x, y, t| det(h, x, y, t, phase, k),
-                |v| v.iter().filter(|s| s.readout.depth.is_some()).count() >= 5,
-            );
+            let shown = locate_from_behind(&mut rx, h, |x, y, t| det(h, x, y, t, phase, k));
             let last = *shown.last().unwrap();
             (shown.len(), last)
         };
