@@ -94,8 +94,15 @@ fn ten_hours_of_a_wrapping_tick_counter() {
     w.per_pass = 40;
     w.tick0 = tick0;
     let hours = 10;
+    // 10 readouts/s, the lowest allowed: the clock is under test, and on the host the
+    // locator's fit per readout is most of this test's time.
+    w.run(&mut a, &mut tx, &mut rx, 10, &none, b"rate 10\n", &mut seen);
+    assert_eq!(seen.replies.last().map(String::as_str), Some("ok rate"), "{:?}", seen.replies);
+    let mut count = 0u64;
     for _ in 0..hours * 60 {
+        let before = seen.readouts.len();
         w.run(&mut a, &mut tx, &mut rx, 60_000, &none, b"", &mut seen);
+        count += (seen.readouts.len() - before) as u64;
         // Keep the memory small: the readouts are checked as they come.
         let settled: Vec<_> = seen.readouts.iter().filter(|r| r.t_s > 3.0).collect();
         for r in &settled {
@@ -105,13 +112,16 @@ fn ten_hours_of_a_wrapping_tick_counter() {
         seen.readouts.drain(..n.saturating_sub(1));
         seen.screens.clear();
     }
-    // The clock ran exactly ten hours, and never mistook a wrap for a stall.
-    assert_eq!(a.now_ms(), hours * 3_600_000);
+    // The clock ran exactly ten hours (and the 10 ms of the command), and never mistook a wrap
+    // for a stall.
+    assert_eq!(a.now_ms(), hours * 3_600_000 + 10);
     assert_eq!(a.converter().restarts, 0);
     assert!(!seen.notes.iter().any(|n| n.contains("fault")), "{:?}", seen.notes);
-    // And the readouts kept coming: the last one within a readout interval (200 samples) of the end.
+    // And the readouts kept coming: the last one within a readout interval (400 samples) of the end.
     let last = seen.readouts.last().unwrap();
-    assert!(hours * 3600 * 4000 - last.sample_index <= 200, "{}", last.sample_index);
+    assert!(hours * 3600 * 4000 + 40 - last.sample_index <= 400, "{}", last.sample_index);
+    // Ten a second, all the ten hours.
+    assert!(count.abs_diff(hours * 36_000) <= 1, "{count} readouts");
 }
 
 /// Button levels from a list of (button 0 − / 1 OK / 2 +, from ms, to ms).

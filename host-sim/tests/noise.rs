@@ -75,6 +75,23 @@ fn kolmogorov_smirnov_distance_is_small() {
     assert!(d * n.sqrt() < 1.95, "√n·D = {}", d * n.sqrt());
 }
 
+/// No correlation between neighbouring draws (lags 1–8), nor between their squares (a
+/// sign-free dependence), as the synthesis needs for white noise. For independent draws each
+/// sample correlation has standard error 1/√n (Box & Jenkins, Time Series Analysis, §2.1.6);
+/// the limit is five of them.
+#[test]
+fn neighbouring_draws_are_uncorrelated() {
+    let v = draws(23);
+    let n = N as f64;
+    for lag in 1..=8 {
+        let r = v.iter().zip(&v[lag..]).map(|(a, b)| a * b).sum::<f64>() / n;
+        assert!(r.abs() < 5.0 / n.sqrt(), "lag {lag}: {r}");
+        // x² has mean 1 and variance 2: its lagged covariance over 2 is a correlation too.
+        let r2 = v.iter().zip(&v[lag..]).map(|(a, b)| (a * a - 1.0) * (b * b - 1.0)).sum::<f64>() / n / 2.0;
+        assert!(r2.abs() < 5.0 / n.sqrt(), "squares, lag {lag}: {r2}");
+    }
+}
+
 /// A scenario with noise only: a weak sonde far below (its field under 1e-18 T
 /// at the coils), no mains; the converter's own noise optional.
 fn quiet(density_counts: f64, bits: u32) -> Scenario {

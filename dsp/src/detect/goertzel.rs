@@ -70,17 +70,17 @@ impl Goertzel {
     /// Coefficients for a frequency in cycles per sample (`f/fs`, any real value in (0, 0.5)).
     pub fn from_cycles_per_sample(cycles: f64) -> Self {
         let omega = 2.0 * core::f64::consts::PI * cycles;
-        let c = libm::cos(omega);
+        let c = super::trig::cos(omega);
         let (form, k) = if c > core::f64::consts::FRAC_1_SQRT_2 {
-            let s = libm::sin(omega / 2.0);
+            let s = super::trig::sin(omega / 2.0);
             (Form::Low, -4.0 * s * s)
         } else if c < -core::f64::consts::FRAC_1_SQRT_2 {
-            let h = libm::cos(omega / 2.0);
+            let h = super::trig::cos(omega / 2.0);
             (Form::High, 4.0 * h * h)
         } else {
             (Form::Plain, 2.0 * c)
         };
-        Self { k: k as f32, form, cos_w: c as f32, sin_w: libm::sin(omega) as f32, omega_rad: omega }
+        Self { k: k as f32, form, cos_w: c as f32, sin_w: super::trig::sin(omega) as f32, omega_rad: omega }
     }
 
     /// ω in rad/sample.
@@ -120,7 +120,11 @@ impl Goertzel {
 
     /// The DTFT `Σ x[n]·e^{−jωn}` of the `len` samples fed since the state was reset.
     pub fn dtft(&self, st: &GoertzelState, len: u32) -> C32 {
-        let rot = crate::phasor::unit(-(self.omega_rad * len as f64 % (2.0 * core::f64::consts::PI)) as f32);
+        // The phase reduced to [0, 2π) with `floor` rather than f64 `%` (whose `fmod` would
+        // cost the board image 3 KiB); any turn of 2π gives the same rotation.
+        const TAU: f64 = 2.0 * core::f64::consts::PI;
+        let ph = self.omega_rad * len as f64;
+        let rot = crate::phasor::unit(-(ph - TAU * libm::floor(ph / TAU)) as f32);
         self.raw(st) * rot
     }
 

@@ -203,9 +203,17 @@ impl LockIn {
     /// |H| of the low-pass cascade at `f_hz` (at the intermediate rate).
     pub fn lowpass_response(&self, f_hz: f64) -> f64 {
         let w = 2.0 * core::f64::consts::PI * f_hz / self.intermediate_rate_hz as f64;
-        let a = 1.0 - self.alpha as f64;
-        let den = libm::sqrt(1.0 - 2.0 * a * libm::cos(w) + a * a);
-        libm::pow(self.alpha as f64 / den, self.poles as f64)
+        let al = self.alpha as f64;
+        let a = 1.0 - al;
+        // 1 − 2a·cos w + a² written as α² + 4a·sin²(w/2) (α = 1 − a): no cancellation at
+        // small w. The root in f32 (relative 6e-8; an f64 `sqrt` would add 0.5 KiB to the
+        // board image).
+        let sh = super::trig::sin(w / 2.0);
+        let den = libm::sqrtf((al * al + 4.0 * a * sh * sh) as f32) as f64;
+        // `poles` is 1 to 4: repeated products (exact to rounding, and no f64 `pow` in the
+        // board image).
+        let h = self.alpha as f64 / den;
+        (0..self.poles).fold(1.0, |acc, _| acc * h)
     }
 
     /// Response of the noise probe (offset `delta_hz` from the tone, run at the
@@ -254,10 +262,10 @@ impl LockIn {
     pub fn boxcar_response(&self, offset_hz: f64) -> f64 {
         let m = self.m as f64;
         let x = core::f64::consts::PI * offset_hz / self.sample_rate_hz as f64;
-        if libm::fabs(libm::sin(x)) < 1e-15 {
+        if libm::fabs(super::trig::sin(x)) < 1e-15 {
             1.0
         } else {
-            libm::fabs(libm::sin(m * x) / (m * libm::sin(x)))
+            libm::fabs(super::trig::sin(m * x) / (m * super::trig::sin(x)))
         }
     }
 

@@ -101,9 +101,11 @@ pub fn scan(x: &[f32], s: &ScanSettings) -> Result<Vec<Tone, MAX_TONES>, ConfigE
             continue;
         }
         let snr = 10.0 * libm::log10f(p / mean.max(f32::MIN_POSITIVE));
-        let _ = found.push(Tone { freq_hz: ff, amplitude: amp, snr_db: snr });
+        // Kept strongest first by insertion (at most 2·MAX_TONES entries; core's sort would
+        // cost the board image 2.6 KiB). A NaN amplitude goes last.
+        let at = found.iter().position(|t| t.amplitude < amp).unwrap_or(found.len());
+        let _ = found.insert(at, Tone { freq_hz: ff, amplitude: amp, snr_db: snr });
     }
-    found.sort_unstable_by(|a, b| b.amplitude.partial_cmp(&a.amplitude).unwrap_or(core::cmp::Ordering::Equal));
     for t in found.iter().take(MAX_TONES) {
         let _ = tones.push(*t);
     }

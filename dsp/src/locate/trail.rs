@@ -1069,7 +1069,9 @@ impl<const N: usize> Trail<N> {
             o.loc[i][1] += s.dl[i][1].clamp(-5.0, 5.0);
             o.loc[i][2] = wrap_pi(o.loc[i][2] + s.dl[i][2].clamp(-1.0, 1.0));
         }
-        o.glob[IH] = (o.glob[IH] + s.dg[IH].clamp(-0.5 * o.glob[IH], 2.0)).clamp(MIN_DEPTH_M, MAX_DEPTH_M);
+        // A depth step of at most half the depth up and 2 m down. `max`/`min`, not `clamp`: a
+        // bound computed at run time would make `clamp` panic if it were NaN.
+        o.glob[IH] = (o.glob[IH] + s.dg[IH].max(-0.5 * o.glob[IH]).min(2.0)).clamp(MIN_DEPTH_M, MAX_DEPTH_M);
         o.glob[IA] = (o.glob[IA] + s.dg[IA].clamp(-0.5, 0.5)).clamp(-1.5, 1.5);
         o.glob[IK] = (o.glob[IK] + s.dg[IK].clamp(-3.0, 3.0)).clamp(-80.0, 80.0);
         o.glob[IG] = (o.glob[IG] + s.dg[IG].clamp(-0.2, 0.2)).clamp(-0.5, 0.5);
