@@ -512,14 +512,12 @@ impl Synth {
         }
         let (lo_code, hi_code) = (-self.fsc - 1.0, self.fsc);
         let span = (hi.n - lo.n) as usize;
+        // Noise, rounding and interleaving in one pass per coil.
         for c in 0..nc {
             let g = &noise[c * span + off..c * span + off + len];
-            let vc = &mut v[c * len..(c + 1) * len];
-            for k in 0..len {
-                vc[k] = round_clip(vc[k] + g[k], lo_code, hi_code);
-            }
-            for (k, frame) in out[..nc * len].chunks_exact_mut(nc).enumerate() {
-                frame[c] = vc[k] as i32;
+            let vc = &v[c * len..(c + 1) * len];
+            for ((frame, &x), &n) in out[..nc * len].chunks_exact_mut(nc).zip(vc).zip(g) {
+                frame[c] = round_clip(x + n, lo_code, hi_code) as i32;
             }
         }
         self.n += len as u64;
