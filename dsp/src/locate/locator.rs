@@ -364,12 +364,21 @@ impl<const N: usize> Locator<N> {
         let clipped = det_flags.contains(Flags::CLIPPED);
         // 4. The trail.
         let place = if present && !settling && !clipped {
-            let motion = match self.last_hint {
+            let motion_of = |h: Hint| match h {
                 Hint::TurnInLine => Motion::Turn,
                 Hint::Wait | Hint::HoldStill => Motion::Hold,
                 Hint::StepLeft | Hint::StepRight | Hint::SweepAcross => Motion::Side,
                 Hint::WalkAhead | Hint::WalkBack | Hint::WalkAlong | Hint::WalkOtherWay | Hint::SweepAlong => Motion::Along,
             };
+            let mut motion = motion_of(self.last_hint);
+            if motion == Motion::Hold && self.trail.moving() {
+                // "Hold still" shows (over the sonde) while the move asked for is still under
+                // way: a person finishes the step they are taking. Until the readouts are
+                // steady the head is taken to move as that move asked, not to stand (a
+                // standing head's tight prior on a moving one pulled the depth 5 % shallow at
+                // 4 m).
+                motion = motion_of(self.request_hint);
+            }
             let mut sigma = field.sigma;
             for v in sigma.iter_mut() {
                 *v = v.max(1e-30);
