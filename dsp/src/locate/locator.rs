@@ -741,9 +741,12 @@ impl<const N: usize> Locator<N> {
         let settled = self.still_for_s >= SETTLE_S;
         let sweep = (0.3 * h).clamp(0.3, 0.8);
         // Near the sonde the field runs along its axis: a handle far out of line with it
-        // turns "ahead" into "across the axis", where the field changes least. Turn first.
+        // turns "ahead" into "across the axis", where the field changes least. Turn first,
+        // when the bearing shown agrees: a person turns until the bearing reads in line, and
+        // beside a pitched sonde the field can read in line with the handle 30° off its axis
+        // (asked to turn with nothing to turn by, they would stand there for good).
         let near = libm::hypotf(a, l) < (0.7 * h).max(0.5);
-        let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3;
+        let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3 && out_of_line;
         let along_known = g.along == Along::Ahead || g.along == Along::Behind;
         let walk = if a > 0.0 { Hint::WalkAhead } else { Hint::WalkBack };
         let step = if l > 0.0 { Hint::StepLeft } else { Hint::StepRight };
