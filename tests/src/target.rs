@@ -49,18 +49,19 @@ pub fn ensure_target() -> Result<(), String> {
     }
 }
 
-/// Build the board image (profile `board`) into `target/board/`; its path. A folder of its
-/// own: the board-image test builds it while `cargo test` holds `target/`, and finds there what
-/// `cargo board` built already (CI builds it once).
-pub fn build_board() -> Result<PathBuf, String> {
-    build_board_in(Some(&workspace().join("target").join("board")))
+/// The target folder of the board and emulator images, `target/board/`: a folder of its own,
+/// so the board-image and emulator tests can build while `cargo test` holds `target/`; the
+/// images share their dependencies there, and the test finds what `cargo board` built already
+/// (CI builds it once).
+pub fn board_dir() -> PathBuf {
+    workspace().join("target").join("board")
 }
 
-/// Build the board image (profile `board`), into `target_dir` when given; its path.
-pub fn build_board_in(target_dir: Option<&Path>) -> Result<PathBuf, String> {
+/// Build the board image (profile `board`) into [`board_dir`]; its path.
+pub fn build_board() -> Result<PathBuf, String> {
     ensure_target()?;
     let ws = workspace();
-    let dir = target_dir.map(Path::to_path_buf).unwrap_or_else(|| ws.join("target"));
+    let dir = board_dir();
     let out = Command::new(cargo())
         .current_dir(&ws)
         .args([
@@ -102,12 +103,11 @@ pub enum EmuProfile {
     Release,
 }
 
-/// Build the emulator image in `target/board/` (no lock shared with a running cargo; the
-/// board image's dependencies, built there by `cargo board`, serve both).
+/// Build the emulator image in [`board_dir`].
 pub fn build_emu(profile: EmuProfile) -> Result<PathBuf, String> {
     ensure_target()?;
     let ws = workspace();
-    let dir = ws.join("target").join("board");
+    let dir = board_dir();
     let name = match profile {
         EmuProfile::Board => "board",
         EmuProfile::Release => "release",

@@ -70,7 +70,7 @@ impl Goertzel {
     /// Coefficients for a frequency in cycles per sample (`f/fs`, any real value in (0, 0.5)).
     pub fn from_cycles_per_sample(cycles: f64) -> Self {
         let omega = 2.0 * core::f64::consts::PI * cycles;
-        let c = super::trig::cos(omega);
+        let (sin_w, c) = super::trig::sin_cos(omega);
         let (form, k) = if c > core::f64::consts::FRAC_1_SQRT_2 {
             let s = super::trig::sin(omega / 2.0);
             (Form::Low, -4.0 * s * s)
@@ -80,7 +80,7 @@ impl Goertzel {
         } else {
             (Form::Plain, 2.0 * c)
         };
-        Self { k: k as f32, form, cos_w: c as f32, sin_w: super::trig::sin(omega) as f32, omega_rad: omega }
+        Self { k: k as f32, form, cos_w: c as f32, sin_w: sin_w as f32, omega_rad: omega }
     }
 
     /// ω in rad/sample.
@@ -122,7 +122,7 @@ impl Goertzel {
     pub fn dtft(&self, st: &GoertzelState, len: u32) -> C32 {
         // The phase reduced to [0, 2π) with `floor` rather than f64 `%` (whose `fmod` would
         // cost the board image 3 KiB); any turn of 2π gives the same rotation.
-        const TAU: f64 = 2.0 * core::f64::consts::PI;
+        use core::f64::consts::TAU;
         let ph = self.omega_rad * len as f64;
         let rot = crate::phasor::unit(-(ph - TAU * libm::floor(ph / TAU)) as f32);
         self.raw(st) * rot

@@ -212,7 +212,7 @@ impl LockIn {
         let den = libm::sqrtf((al * al + 4.0 * a * sh * sh) as f32) as f64;
         // `poles` is 1 to 4: repeated products (exact to rounding, and no f64 `pow` in the
         // board image).
-        let h = self.alpha as f64 / den;
+        let h = al / den;
         (0..self.poles).fold(1.0, |acc, _| acc * h)
     }
 
@@ -262,10 +262,11 @@ impl LockIn {
     pub fn boxcar_response(&self, offset_hz: f64) -> f64 {
         let m = self.m as f64;
         let x = core::f64::consts::PI * offset_hz / self.sample_rate_hz as f64;
-        if libm::fabs(super::trig::sin(x)) < 1e-15 {
+        let sx = super::trig::sin(x);
+        if libm::fabs(sx) < 1e-15 {
             1.0
         } else {
-            libm::fabs(super::trig::sin(m * x) / (m * super::trig::sin(x)))
+            libm::fabs(super::trig::sin(m * x) / (m * sx))
         }
     }
 

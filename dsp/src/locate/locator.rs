@@ -746,7 +746,7 @@ impl<const N: usize> Locator<N> {
         // beside a pitched sonde the field can read in line with the handle 30° off its axis
         // (asked to turn with nothing to turn by, they would stand there for good).
         let near = libm::hypotf(a, l) < (0.7 * h).max(0.5);
-        let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3 && out_of_line;
+        let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3;
         let along_known = g.along == Along::Ahead || g.along == Along::Behind;
         let walk = if a > 0.0 { Hint::WalkAhead } else { Hint::WalkBack };
         let step = if l > 0.0 { Hint::StepLeft } else { Hint::StepRight };
@@ -757,7 +757,7 @@ impl<const N: usize> Locator<N> {
             } else {
                 Hint::WalkAlong
             }
-        } else if near && crossed && !(g.along == Along::Over && g.across == Across::Centred) {
+        } else if near && crossed && out_of_line && !(g.along == Along::Over && g.across == Across::Centred) {
             Hint::TurnInLine
         } else if far {
             // Far off: go the longer way first, walking or stepping.
