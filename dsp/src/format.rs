@@ -28,7 +28,8 @@ pub fn length(m: f32, unit: LengthUnit) -> heapless::String<16> {
     }
     match unit {
         LengthUnit::Metres => {
-            let cm = libm::round(m as f64 * 100.0) as i64;
+            // |m| ≤ 1e6 m: the centimetres fit an i32 (no 64-bit divide on the board).
+            let cm = libm::round(m as f64 * 100.0) as i32;
             let sign = if cm < 0 { "-" } else { "" };
             let a = cm.unsigned_abs();
             let _ = write!(s, "{}{}.{:02} m", sign, a / 100, a % 100);

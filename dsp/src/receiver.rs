@@ -104,7 +104,7 @@ pub struct Readout<const N: usize> {
     pub known_moment: DepthEstimate,
     /// One-station fit depth (6-coil heads).
     pub fit_depth: DepthEstimate,
-    /// The depth to show (the valid estimate with the smallest σ), with its depth below ground.
+    /// The depth to show (the trail's when valid, else the valid estimate with the smallest σ), with its depth below ground.
     pub depth: Option<ShownDepth>,
     /// The one-station fix, when the head has two full triads and the fit ran.
     pub fix: Option<Fix>,

@@ -151,7 +151,7 @@ pub fn six_coil_fit_warm(reps: u32, clock: &mut dyn FnMut() -> u64) -> u64 {
     for i in 0..reps {
         let a = reading(0.4 - 0.02 * (i + 1) as f32);
         let t0 = clock();
-        let f = fit_from(&head, &a, &sig, None, last, None);
+        let f = fit_from(&head, &a, &sig, None, last, None, f32::INFINITY);
         spent += clock().wrapping_sub(t0);
         last = f.converged.then_some(f.params());
     }

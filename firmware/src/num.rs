@@ -161,19 +161,20 @@ fn reads_back(d: u64, k: i32, a: f32) -> bool {
 
 /// Print `v` with `decimals` digits after the point, rounded half away from zero (integer
 /// arithmetic on the `f64` value; a negative value keeps its sign even when it rounds to zero,
-/// as `core` prints it; values beyond 10¹⁵ or not finite go through [`write_f32`]).
+/// as `core` prints it; values of 2·10⁹ or more in the last decimal, more than 9 decimals or not finite go through [`write_f32`]).
 pub fn write_fixed(out: &mut dyn Write, v: f32, decimals: u32) -> core::fmt::Result {
     let scale = pow10_f64(decimals);
     let x = v as f64 * scale;
-    if !(libm::fabs(x) < 1e15) {
+    // 32-bit integers (the board has no 64-bit divide); larger values print with an exponent.
+    if decimals > 9 || !(libm::fabs(x) < 2e9) {
         return write_f32(out, v);
     }
-    let n = libm::round(x) as i64;
+    let n = libm::round(x) as i32;
     if v < 0.0 {
         out.write_char('-')?;
     }
     let a = n.unsigned_abs();
-    let s = scale as u64;
+    let s = scale as u32;
     write!(out, "{}", a / s)?;
     if decimals > 0 {
         write!(out, ".{:0w$}", a % s, w = decimals as usize)?;

@@ -117,7 +117,8 @@ fn locate<const N: usize>(
     );
     let known = known_moment_depth(settings.model, norm(lo), sig, cal.strength, cal.strength_sigma, at);
     let fit = if N >= 6 {
-        let f = fit_from(&head, &a, &[sig.max(1e-30); N], None, None, Some(LateralPrior { left_over_depth: 0.0, sigma: 0.05 }));
+        let f =
+            fit_from(&head, &a, &[sig.max(1e-30); N], None, None, Some(LateralPrior { left_over_depth: 0.0, sigma: 0.05 }), f32::INFINITY);
         f.converged.then_some(f.depth_m.value as f64)
     } else {
         None

@@ -8,7 +8,7 @@
 
 use crate::error::Result;
 use crate::motion::Motion;
-use crate::physics::{axis, dipole, skin_depth_m};
+use crate::physics::{axis, dipole_in_ground, skin_depth_m};
 use crate::plots::{heatmap, Heatmap, Marks, Track};
 use crate::report::CAUTION_LINE;
 use crate::scenario::Scenario;
@@ -106,12 +106,11 @@ pub fn field_map_marked(
             let x = x0 + (ix as f64 + 0.5) * (x1 - x0) / CELLS as f64;
             let y = y0 + (iy as f64 + 0.5) * (y1 - y0) / CELLS as f64;
             let p = [x, y, h];
-            let b = dipole(m, p1, p);
-            let d = ((x - p1[0]).powi(2) + (y - p1[1]).powi(2) + (h - p1[2]).powi(2)).sqrt();
-            let att = if delta.is_finite() { (-d / delta).exp() } else { 1.0 };
-            let hor = (b[0] * b[0] + b[1] * b[1]).sqrt() * att * 1e9;
+            // Field magnitudes in the ground (phase aside; the vertical keeps its static sign).
+            let (re, im) = dipole_in_ground(m, p1, p, delta);
+            let hor = (re[0] * re[0] + re[1] * re[1] + im[0] * im[0] + im[1] * im[1]).sqrt() * 1e9;
             bh[iy][ix] = 20.0 * hor.max(1e-9).log10();
-            bz[iy][ix] = b[2] * att * 1e9;
+            bz[iy][ix] = re[2].signum() * re[2].hypot(im[2]) * 1e9;
         }
     }
     let mut all: Vec<Track> = tracks.to_vec();

@@ -2,8 +2,8 @@
 //! coil at a point, and the detection range.
 //!
 //! Model: each coil's tone amplitude is the projection of the dipole field
-//! (Griffiths eq. 5.89, with the first-order soil loss `e^{−d/δ}`) on its
-//! axis; the noise on each real component of a detected phasor is
+//! (Griffiths eq. 5.89; in conducting ground the whole-space field of
+//! [`crate::physics::dipole_in_ground`], its magnitude) on its axis; the noise on each real component of a detected phasor is
 //! `σ = √(S·B)`, S the one-sided noise power density at the coil (T²/Hz: the
 //! field noise, the converter's own noise and the quantisation `q²/12` spread
 //! over `fs/2`) and B the detector's noise bandwidth (the lock-in's
@@ -18,7 +18,7 @@
 
 use crate::error::{Result, SimError};
 use crate::motion::Pose;
-use crate::physics::{axis, dipole, dot, skin_depth_m};
+use crate::physics::{axis, dipole_in_ground, dot, skin_depth_m};
 use crate::run::receiver_settings;
 use crate::scenario::Scenario;
 use crate::synth::HeadGeom;
@@ -42,18 +42,16 @@ pub fn phasor_noise_t(sc: &Scenario) -> Result<(f64, f64)> {
     Ok(((s * bw).sqrt(), bw))
 }
 
-/// The field (T) of the sonde at the lower coil of a receiver at `(x, y)`, at time 0.
-fn field_at(sc: &Scenario, x: f64, y: f64) -> [f64; 3] {
+/// The field (T) of the sonde at the lower coil of a receiver at `(x, y)`, at time 0: the
+/// phasor's real and imaginary parts (the ground shifts the phase a little).
+fn field_at(sc: &Scenario, x: f64, y: f64) -> ([f64; 3], [f64; 3]) {
     let s = &sc.sonde;
     let ax = axis(s.yaw_deg.to_radians(), s.pitch_deg.to_radians());
     let m = [ax[0] * s.moment_am2, ax[1] * s.moment_am2, ax[2] * s.moment_am2];
     let src = [s.x_m, s.y_m, -s.depth_m];
     let p = [x, y, sc.receiver.height_m];
-    let b = dipole(m, src, p);
-    let d = ((p[0] - src[0]).powi(2) + (p[1] - src[1]).powi(2) + (p[2] - src[2]).powi(2)).sqrt();
     let delta = skin_depth_m(s.freq_hz, sc.soil.conductivity_s_per_m);
-    let att = if delta.is_finite() { (-d / delta).exp() } else { 1.0 };
-    [b[0] * att, b[1] * att, b[2] * att]
+    dipole_in_ground(m, src, p, delta)
 }
 
 /// SNR (dB) of the best coil of the scenario's head at `pose`.
@@ -72,7 +70,7 @@ pub fn best_coil_snr_db(sc: &Scenario, pose: Pose) -> Result<f64> {
             b = field_at(&sc2, p[0], p[1]);
         }
         let ax = [c * a[0] - s * a[1], s * a[0] + c * a[1], a[2]];
-        best = best.max(dot(b, ax).abs());
+        best = best.max(dot(b.0, ax).hypot(dot(b.1, ax)));
     }
     Ok(20.0 * (best / sigma).max(1e-12).log10())
 }
@@ -82,9 +80,9 @@ pub fn detection_range_m(sc: &Scenario) -> Result<f64> {
     let (sigma, _) = phasor_noise_t(sc)?;
     let limit = sigma * 10f64.powf(RANGE_SNR_DB / 20.0);
     let heard = |x: f64, y: f64| {
-        let b = field_at(sc, x, y);
+        let (b, i) = field_at(sc, x, y);
         // The handle turned the best way: the horizontal coils take the horizontal field, the vertical one Bz.
-        (b[0] * b[0] + b[1] * b[1]).sqrt().max(b[2].abs()) >= limit
+        (b[0] * b[0] + b[1] * b[1] + i[0] * i[0] + i[1] * i[1]).sqrt().max(b[2].hypot(i[2])) >= limit
     };
     let (cx, cy) = (sc.sonde.x_m, sc.sonde.y_m);
     let mut range = f64::INFINITY;

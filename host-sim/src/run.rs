@@ -361,6 +361,9 @@ pub fn receiver_settings<const N: usize>(sc: &Scenario, head: Head<N>, bandwidth
     input.scale = [(sc.receiver.full_scale_t / fsc) as f32; N];
     let mut s = ReceiverSettings::new(det, input, head);
     s.locator.skin_depth_m = crate::physics::skin_depth_m(det.beacon.freq_hz() as f64, sc.receiver.assume_conductivity_s_per_m) as f32;
+    if let Some(g) = sc.receiver.gain_tolerance {
+        s.locator.gain_tolerance = g as f32;
+    }
     s.locator.coil_height_m = sc.receiver.height_m as f32;
     s
 }

@@ -91,6 +91,10 @@ pub struct ReceiverSpec {
     /// correction, S/m (0: no correction). Independent of the true `soil`.
     #[serde(default)]
     pub assume_conductivity_s_per_m: f64,
+    /// Upper/lower coil gain tolerance the operator sets on the receiver (one σ, after
+    /// calibration; the receiver's default when absent). Independent of `gain_mismatch`.
+    #[serde(default)]
+    pub gain_tolerance: Option<f64>,
 }
 
 /// The built-in coil heads.
@@ -428,6 +432,10 @@ impl Scenario {
         }
         check(p, "receiver.skew_s", r.skew_s, 0.0, 1e-3)?;
         check(p, "receiver.assume_conductivity_s_per_m", r.assume_conductivity_s_per_m, 0.0, 10.0)?;
+        if let Some(g) = r.gain_tolerance {
+            let (lo, hi) = undertone_dsp::locate::locator::GAIN_TOLERANCE_RANGE;
+            check(p, "receiver.gain_tolerance", g, lo as f64, hi as f64)?;
+        }
         let fs = r.sample_rate_hz;
         let sonde = |name: &str, s: &SondeSpec| -> Result<()> {
             check_tone(p, &format!("{name}.freq_hz"), s.freq_hz, fs)?;

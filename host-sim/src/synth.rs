@@ -7,9 +7,10 @@
 //! `v_c(n) = Σ_s A_{s,c}(t)·cos(2π f_s (t + c·skew_s) + φ_s) + u_c(t)·W(t + c·skew_s) + σ_T·g`
 //!
 //! * `A_{s,c}`: the projection of source s's field (a dipole sonde or
-//!   interferer, a line current) on the coil axis at the coil's position,
-//!   times the soil attenuation `e^{−d/δ}` and the coil's gain `1 + mismatch`
-//!   (see [`crate::physics`]).
+//!   interferer, a line current) on the coil axis at the coil's position, in
+//!   conducting ground the whole-space dipole field (a complex phasor; a line
+//!   keeps the first-order loss `e^{−ρ/δ}`), times the coil's gain
+//!   `1 + mismatch` (see [`crate::physics`]).
 //! * Mains: every harmonic h of the grid frequency f_g shares one field
 //!   direction `d̂`, so its part factors into the coil's projection
 //!   `u_c = (d̂·â_c)(1 + mismatch_c)` times one waveform
@@ -70,7 +71,7 @@
 
 use crate::motion::{Motion, Pose};
 use crate::noise::Gaussian;
-use crate::physics::{axis, dipole, dot, line, skin_depth_m, V};
+use crate::physics::{axis, dipole_in_ground, dot, line, skin_depth_m, V};
 use crate::scenario::{HeadKind, Scenario};
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 use undertone_dsp::Head;
@@ -412,7 +413,7 @@ impl Synth {
         // Coils of a triad share one position: the field there (and its
         // attenuation) is computed once per source and position.
         let mut at: Option<V> = None;
-        let mut fields = [([0.0; 3], 1.0); 16];
+        let mut fields = [([0.0; 3], [0.0; 3]); 16];
         for ci in 0..nc {
             let p0 = rot(self.head.pos[ci]);
             let p = [pose.x_m + p0[0], pose.y_m + p0[1], self.height + p0[2]];
@@ -421,30 +422,35 @@ impl Synth {
             let fresh = at != Some(p);
             at = Some(p);
             for (i, src) in self.srcs.iter().enumerate() {
-                let (b, att) = match (fresh, fields.get(i)) {
+                // The field's phasor (real, imaginary) at the coil, ground included.
+                let (re, im) = match (fresh, fields.get(i)) {
                     (false, Some(f)) => *f,
                     _ => {
-                        let (b, d) = match src.kind {
+                        let f = match src.kind {
                             Kind::Dipole { moment, axis, .. } => {
                                 let sp = src.pos_at(t);
                                 let m = [axis[0] * moment, axis[1] * moment, axis[2] * moment];
-                                let r = [p[0] - sp[0], p[1] - sp[1], p[2] - sp[2]];
-                                (dipole(m, sp, p), dot(r, r).sqrt())
+                                dipole_in_ground(m, sp, p, src.delta_m)
                             }
-                            Kind::Line { current, origin, dir } => (line(current, origin, dir, p), (p[2] - origin[2]).abs()),
-                            Kind::Uniform { field } => (field, 0.0),
+                            Kind::Line { current, origin, dir } => {
+                                let b = line(current, origin, dir, p);
+                                let att = if src.delta_m.is_finite() { (-(p[2] - origin[2]).abs() / src.delta_m).exp() } else { 1.0 };
+                                ([b[0] * att, b[1] * att, b[2] * att], [0.0; 3])
+                            }
+                            Kind::Uniform { field } => (field, [0.0; 3]),
                         };
-                        let f = (b, if src.delta_m.is_finite() { (-d / src.delta_m).exp() } else { 1.0 });
                         if let Some(slot) = fields.get_mut(i) {
                             *slot = f;
                         }
                         f
                     }
                 };
-                let a = dot(b, ax) * att * g;
+                // The waveform is Re((p + iq)·e^{+iωt}): the phasor of physics.rs (time factor
+                // e^{−iωt}) enters conjugated, so a field delayed by the ground stays delayed.
+                let (a, b) = (dot(re, ax) * g, -dot(im, ax) * g);
                 let sr = self.skew_rot[i * nc + ci];
-                k.p[i * nc + ci] = a * sr.0;
-                k.q[i * nc + ci] = a * sr.1;
+                k.p[i * nc + ci] = a * sr.0 - b * sr.1;
+                k.q[i * nc + ci] = a * sr.1 + b * sr.0;
             }
             k.u[ci] = self.mains.as_ref().map(|m| dot(m.dir, ax) * g).unwrap_or(0.0);
         }

@@ -169,7 +169,7 @@ fn over_the_sonde_the_lateral_prior_makes_the_depth_right() {
     let trials = 200;
     for _ in 0..trials {
         let a = clean.map(|v| v + noise.sample() as f32);
-        let f = fit_from(&head, &a, &[sd; 6], None, None, Some(prior));
+        let f = fit_from(&head, &a, &[sd; 6], None, None, Some(prior), f32::INFINITY);
         assert!(f.converged);
         if (f.depth_m.value - h).abs() < 0.05 * h {
             within += 1;

@@ -1,6 +1,7 @@
 //! Field models (point dipole, long line current) and coil-head geometry.
 
 pub mod dipole;
+pub mod ground;
 pub mod head;
 pub mod line;
 pub mod vec3;

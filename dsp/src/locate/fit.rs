@@ -17,6 +17,7 @@
 //! the Cramér–Rao bound of the model, `cov = (JᵀWJ)⁻¹` (Kay, *Fundamentals of
 //! Statistical Signal Processing* vol. 1, 1993, ch. 3).
 
+use crate::field::ground::whole_space_factors;
 use crate::field::head::Head;
 use crate::locate::guidance::offset_from_ratio;
 
@@ -97,6 +98,19 @@ type F = f32;
 /// `∂r/∂y = −ŷ`, `∂r/∂h = +ẑ`; `u(ψ, α)` gives `∂u/∂ψ = (−cα sψ, cα cψ, 0)` and
 /// `∂u/∂α = (−sα cψ, −sα sψ, cα)`. Each reading is `K·g_c·f`.
 pub fn model_jacobian<const N: usize>(head: &Head<N>, th: &[F; P]) -> ([F; N], [[F; P]; N]) {
+    model_jacobian_in(head, th, F::INFINITY)
+}
+
+/// [`model_jacobian`] in conducting ground of skin depth `skin_depth_m` (m; infinite: none).
+///
+/// The reading splits into its part along `r̂`, `R = 2qm/d⁵`, and the transverse
+/// rest, `T = qm/d⁵ − w/d³`; the ground scales them by `|A_r(d)|` and `|A_t(d)|`
+/// ([`whole_space_factors`]): `f = A_r·R + A_t·T`, written as the static `f`
+/// plus `(A_r − 1)·R + (A_t − 1)·T` so that without ground it is the static
+/// model to the bit. `∂R/∂r = 2(m·u + q·n)/d⁵ − 10qm·r/d⁷`,
+/// `∂T/∂r = (m·u + q·n)/d⁵ − 5qm·r/d⁷ + 3w·r/d⁵`, and the factors add
+/// `(A_r'·R + A_t'·T)·r/d`.
+pub fn model_jacobian_in<const N: usize>(head: &Head<N>, th: &[F; P], skin_depth_m: F) -> ([F; N], [[F; P]; N]) {
     let (sy, cy) = (libm::sinf(th[3]), libm::cosf(th[3]));
     let (sp, cp) = (libm::sinf(th[4]), libm::cosf(th[4]));
     let u = [cp * cy, cp * sy, sp];
@@ -117,14 +131,23 @@ pub fn model_jacobian<const N: usize>(head: &Head<N>, th: &[F; P]) -> ([F; N], [
         let d7 = d5 * d2;
         let n = coil.axis;
         let (q, m, w) = (dot(u, r), dot(n, r), dot(n, u));
-        let f = 3.0 * q * m / d5 - w / d3;
+        let [ar, at, dar, dat] = whole_space_factors(d, skin_depth_m);
+        let (ar, at) = (ar - 1.0, at - 1.0);
+        let (rad, tr) = (2.0 * q * m / d5, q * m / d5 - w / d3);
+        let f = 3.0 * q * m / d5 - w / d3 + ar * rad + at * tr;
         let kg = th[5] * coil.gain;
         out[c] = kg * f;
         let mut df_dr = [0.0; 3];
         let mut df_du = [0.0; 3];
+        let g = (dar * rad + dat * tr) / d;
         for i in 0..3 {
-            df_dr[i] = 3.0 * (m * u[i] + q * n[i]) / d5 - 15.0 * q * m * r[i] / d7 + 3.0 * w * r[i] / d5;
-            df_du[i] = 3.0 * m * r[i] / d5 - n[i] / d3;
+            let dq = (m * u[i] + q * n[i]) / d5 - 5.0 * q * m * r[i] / d7;
+            df_dr[i] = 3.0 * (m * u[i] + q * n[i]) / d5 - 15.0 * q * m * r[i] / d7
+                + 3.0 * w * r[i] / d5
+                + ar * 2.0 * dq
+                + at * (dq + 3.0 * w * r[i] / d5)
+                + g * r[i];
+            df_du[i] = 3.0 * m * r[i] / d5 - n[i] / d3 + ar * 2.0 * m * r[i] / d5 + at * (m * r[i] / d5 - n[i] / d3);
         }
         jac[c] = [-kg * df_dr[0], -kg * df_dr[1], kg * df_dr[2], kg * dot(df_du, du_dpsi), kg * dot(df_du, du_dalpha), coil.gain * f];
     }
@@ -138,13 +161,14 @@ pub fn model<const N: usize>(head: &Head<N>, th: &[F; P]) -> [F; N] {
 
 /// Fit readings `a` with noise `sigma`; `known_k` fixes K when calibrated.
 pub fn fit<const N: usize>(head: &Head<N>, a: &[f32; N], sigma: &[f32; N], known_k: Option<f32>) -> Fix {
-    fit_from(head, a, sigma, known_k, None, None)
+    fit_from(head, a, sigma, known_k, None, None, F::INFINITY)
 }
 
 /// As [`fit`], starting from a previous fix when given (a receiver moving a few
 /// centimetres between readouts is close to it): one descent from there, and
 /// the full set of starts only if that lands poorly (χ² above 4 per reading).
-/// `prior` adds the lateral offset known from earlier readouts as one more row.
+/// `prior` adds the lateral offset known from earlier readouts as one more row;
+/// `skin_depth_m` is the ground's (infinite: none; [`model_jacobian_in`]).
 pub fn fit_from<const N: usize>(
     head: &Head<N>,
     a: &[f32; N],
@@ -152,6 +176,7 @@ pub fn fit_from<const N: usize>(
     known_k: Option<f32>,
     start: Option<[f32; P]>,
     prior: Option<LateralPrior>,
+    skin_depth_m: f32,
 ) -> Fix {
     let nfree = if known_k.is_some() { P - 1 } else { P };
     let prior = prior.filter(|p| p.left_over_depth.is_finite() && p.sigma.is_finite() && p.sigma > 0.0);
@@ -160,7 +185,7 @@ pub fn fit_from<const N: usize>(
     if N < nfree || a.iter().chain(sigma.iter()).any(|v| !v.is_finite()) || sigma.iter().any(|s| *s <= 0.0) {
         return fail;
     }
-    let pb = Problem { head, a, sigma, nfree, prior };
+    let pb = Problem { head, a, sigma, nfree, prior, skin_depth_m };
     // Start: gradient depth from the along-coil pair, bearing, ratio.
     let r = head.roles;
     let get = |i: Option<u8>| i.map(|k| a[k as usize] as F).unwrap_or(0.0);
@@ -235,11 +260,12 @@ struct Problem<'a, const N: usize> {
     sigma: &'a [f32; N],
     nfree: usize,
     prior: Option<LateralPrior>,
+    skin_depth_m: F,
 }
 
 /// Weighted residuals of the readings and of the prior row, and χ².
 fn residuals<const N: usize>(pb: &Problem<'_, N>, th: &[F; P]) -> ([F; N], F, F) {
-    let m = model(pb.head, th);
+    let m = model_jacobian_in(pb.head, th, pb.skin_depth_m).0;
     let mut r = [0.0; N];
     let mut chi = 0.0;
     for c in 0..N {
@@ -254,7 +280,7 @@ fn residuals<const N: usize>(pb: &Problem<'_, N>, th: &[F; P]) -> ([F; N], F, F)
 }
 
 fn normal<const N: usize>(pb: &Problem<'_, N>, th: &[F; P]) -> ([[F; P]; P], [F; P]) {
-    let (_, mut j) = model_jacobian(pb.head, th);
+    let (_, mut j) = model_jacobian_in(pb.head, th, pb.skin_depth_m);
     let (r, rp, _) = residuals(pb, th);
     let nfree = pb.nfree;
     let mut jtj = [[0.0; P]; P];

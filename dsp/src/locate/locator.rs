@@ -17,12 +17,18 @@
 //! 5. The one-station fit (6-coil heads), with the trail's lateral offset as a prior.
 //! 6. The trail's place → [`Guidance`]: a direction only where its ±2σ and
 //!    every equally good alternative agree, "over" only within the over
-//!    tolerance in both directions while the head is still.
+//!    tolerance in both directions (at 2σ; kept at 1σ while the head stays
+//!    still) while the head is still.
 //! 7. Depths, each gated (signal, settling, clipping, over the sonde in both
 //!    directions) and with σ covering noise, the coils' gain tolerance and the
-//!    offsets' own uncertainty.
+//!    offsets' own uncertainty. The trail's depth is shown when it is valid
+//!    (it fits pitch, offsets and the gain error with the depth), once it has
+//!    stopped drifting by more than its σ; otherwise the valid estimate of the
+//!    others with the smallest σ. In conducting ground every depth uses the
+//!    whole-space field ([`crate::field::ground`]).
 
 use crate::error::{ConfigError, Param};
+use crate::field::ground::whole_space_factors;
 use crate::field::head::Head;
 use crate::field::FieldModel;
 use crate::flags::Flags;
@@ -76,7 +82,7 @@ pub struct LocatorSettings {
     pub gain_tolerance: f32,
     /// Height of the lower coil centre above the ground, m.
     pub coil_height_m: f32,
-    /// Skin depth of the ground assumed for the gradient depth, m (infinite: no correction).
+    /// Skin depth of the ground assumed for the depths (whole-space model, `field::ground`), m (infinite: none).
     pub skin_depth_m: f32,
     /// Quadrature residue above which the field is flagged.
     pub quadrature_limit: f32,
@@ -133,7 +139,7 @@ impl LocatorSettings {
     }
 }
 
-/// The depth to show: the valid estimate with the smallest σ.
+/// The depth to show: the trail's when valid, else the valid estimate with the smallest σ.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ShownDepth {
@@ -245,7 +251,14 @@ pub struct Locator<const N: usize> {
     established: bool,
     /// Seconds since the last move asked for ended (the readouts catch up with the head).
     quiet_s: f32,
+    /// The last readout said "over" (along and across) and the head has been still since.
+    over_held: bool,
+    /// The trail's depth followed with a lag of [`DRIFT_TAU_S`] (NaN: none yet), m.
+    depth_lag_m: f32,
 }
+
+/// σ within which "over" is kept while the head stays still (it is claimed at 2σ).
+const HOLD_SIGMAS: f32 = 1.0;
 
 /// The best lateral prior a fit can take when nothing is known (y/h within ±3).
 const VAGUE_SIGMA: f32 = 3.0;
@@ -291,6 +304,8 @@ impl<const N: usize> Locator<N> {
             last_depth_m: None,
             established: false,
             quiet_s: 0.0,
+            over_held: false,
+            depth_lag_m: f32::NAN,
         })
     }
 
@@ -323,6 +338,7 @@ impl<const N: usize> Locator<N> {
         self.last_fix = None;
         self.held_fix = None;
         self.last_depth_m = None;
+        self.depth_lag_m = f32::NAN;
     }
 
     /// Step 1: signed field per coil, the upper coils' calibrated gain applied.
@@ -451,14 +467,23 @@ impl<const N: usize> Locator<N> {
                 }
                 None => {}
             }
-            self.directions(place.as_ref(), h_hint, clipped, distorted, out_of_line)
+            // In conducting ground the parts of the field along and across the line to the
+            // sonde drift apart in phase by about (r/δ)² rad (field::ground), which the trail's
+            // in-phase model does not follow: a field out of phase there gives no direction.
+            let ground = s.skin_depth_m.is_finite() && field.quadrature > s.quadrature_limit;
+            self.directions(place.as_ref(), h_hint, clipped, distorted || ground, out_of_line)
         };
+        self.over_held = guidance.over();
         guidance.vertical_ratio = field.vertical_ratio();
         self.quiet_s = if self.trail.moving() { 0.0 } else { self.quiet_s + dt };
         let quiet = self.quiet_s >= (2.0 * timing.group_delay_s).max(MOVE_QUIET_S);
         self.moves(&mut guidance, place.as_ref(), present && !settling, field.total, quiet);
         self.last_hint = guidance.hint;
         // 7. Depths.
+        if let Some(p) = place.as_ref() {
+            let (h, lag) = (p.depth_m.value, self.depth_lag_m);
+            self.depth_lag_m = if lag.is_finite() { lag + (h - lag) * (dt / DRIFT_TAU_S).min(1.0) } else { h };
+        }
         let gate = self.depth_gate(signal, settling, clipped, distorted, place.as_ref(), &guidance);
         let (gradient, known, trail_depth) = match gate {
             Err(w) => (Err(w), Err(w), Err(w)),
@@ -468,15 +493,12 @@ impl<const N: usize> Locator<N> {
             Err(w) => Err(w),
             Ok(_) => self.fit_depth(fix.as_ref(), signal, settling, clipped, distorted),
         };
-        let mut best: Option<(DepthMethod, Depth)> = None;
-        for (m, e) in [
-            (DepthMethod::Trail, trail_depth),
-            (DepthMethod::Gradient, gradient),
-            (DepthMethod::Fit, fit_depth),
-            (DepthMethod::KnownMoment, known),
-        ] {
+        // The trail's depth first: it fits pitch, offsets and the gain error with the depth,
+        // so its σ carries them; the others assume a level sonde at the offsets given.
+        let mut best: Option<(DepthMethod, Depth)> = trail_depth.ok().map(|d| (DepthMethod::Trail, d));
+        for (m, e) in [(DepthMethod::Gradient, gradient), (DepthMethod::Fit, fit_depth), (DepthMethod::KnownMoment, known)] {
             if let Ok(d) = e {
-                if best.map(|b| d.sigma_m < b.1.sigma_m).unwrap_or(true) {
+                if best.map(|b| b.0 != DepthMethod::Trail && d.sigma_m < b.1.sigma_m).unwrap_or(true) {
                     best = Some((m, d));
                 }
             }
@@ -533,7 +555,7 @@ impl<const N: usize> Locator<N> {
             },
             _ => LateralPrior { left_over_depth: 0.0, sigma: VAGUE_SIGMA },
         };
-        let f = fit_from(&self.unit_head(), &field.signed, &sig, k, self.last_fix, Some(prior));
+        let f = fit_from(&self.unit_head(), &field.signed, &sig, k, self.last_fix, Some(prior), self.settings.skin_depth_m);
         self.last_fix = f.converged.then_some(f.params());
         self.held_fix = Some(f);
         Some(f)
@@ -697,9 +719,13 @@ impl<const N: usize> Locator<N> {
         let still = p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h && self.still_for_s > 0.0;
         let (a, sa) = (p.ahead_m.value, p.ahead_m.sigma);
         let (l, sl) = (p.left_m.value, p.left_m.sigma);
-        let within_a = libm::fabsf(a) + 2.0 * sa <= tol;
+        // Over is claimed at two σ and, for a head still since, kept at HOLD_SIGMAS: the
+        // head has not moved, only the estimate's noise has (else "over" flickers under a
+        // person holding still, and they are sent off again).
+        let k = if self.over_held && still { HOLD_SIGMAS } else { 2.0 };
+        let within_a = libm::fabsf(a) + k * sa <= tol;
         // Over is claimed on the distance from the point, both directions together.
-        let within_l = libm::fabsf(l) + 2.0 * sl <= tol && libm::hypotf(a, l) + 2.0 * sa.max(sl) <= tol;
+        let within_l = libm::fabsf(l) + k * sl <= tol && libm::hypotf(a, l) + k * sa.max(sl) <= tol;
         g.along = if p.ambiguous_ahead || !sa.is_finite() {
             Along::Unsure
         } else if within_a && still {
@@ -858,7 +884,14 @@ impl<const N: usize> Locator<N> {
         if !p.depth_m.sigma.is_finite() {
             return Err(Withheld::IllConditioned);
         }
-        let d = crate::locate::depth::depth(p.depth_m.value, libm::hypotf(p.depth_m.sigma, MODEL_FLOOR * p.depth_m.value))?;
+        let h = p.depth_m.value;
+        let sigma = libm::hypotf(p.depth_m.sigma, MODEL_FLOOR * h);
+        // Still drifting (the newest readings pull it further than its σ): not yet.
+        let drift = libm::fabsf(h - self.depth_lag_m);
+        if !(drift <= sigma) {
+            return Err(Withheld::Settling);
+        }
+        let d = crate::locate::depth::depth(h, libm::hypotf(sigma, drift))?;
         self.precise(d)
     }
 
@@ -884,16 +917,23 @@ impl<const N: usize> Locator<N> {
         } else {
             (RatioOf::Along, field.lower[0], field.upper[0], sig(lo[0]), sig(Some(up0)))
         };
-        // First-order soil loss e^{−d/δ} on each path: the ratio gains e^{s/δ}, divided out.
-        let soil = if s.skin_depth_m.is_finite() { libm::expf(sp / s.skin_depth_m) } else { 1.0 };
-        let d = gradient_depth(
-            s.model,
-            of,
-            CoilPair { low: a_lo, up: a_up * soil, sigma_low: s_lo, sigma_up: s_up * soil, spacing_m: sp },
-            s.gain_tolerance,
-            at,
-        )?;
-        self.precise(d)
+        // In conducting ground the coils over the sonde read the transverse field, scaled by
+        // |A_t(d)| (field::ground): once without it for the depth, once with the upper reading
+        // brought to the lower coil's scale at that depth.
+        let mut soil = 1.0;
+        let mut d = Err(Withheld::NoCoils);
+        for _ in 0..2 {
+            d = gradient_depth(
+                s.model,
+                of,
+                CoilPair { low: a_lo, up: a_up * soil, sigma_low: s_lo, sigma_up: s_up * soil, spacing_m: sp },
+                s.gain_tolerance,
+                at,
+            );
+            let Ok(e) = d else { break };
+            soil = whole_space_factors(e.depth_m, s.skin_depth_m)[1] / whole_space_factors(e.depth_m + sp, s.skin_depth_m)[1];
+        }
+        self.precise(d?)
     }
 
     /// Step 7c: the known-moment depth.
@@ -980,6 +1020,11 @@ pub const SETTLE_S: f32 = 2.0;
 /// Least pause after a move before the next is asked for, s (at least twice the
 /// detector's group delay).
 pub const MOVE_QUIET_S: f32 = 0.6;
+/// Time constant with which the trail's depth is followed to see it drift, s: a depth still
+/// moving by more than its σ from where it was about this long ago is not shown, and what
+/// it moved is added to its σ.
+const DRIFT_TAU_S: f32 = 1.0;
+
 /// Relative error of the dipole model at the depths a receiver reads (the
 /// sonde's coil is not a point; within 1 % beyond three coil lengths, see the
 /// exact-loop table in the field module).

@@ -15,7 +15,8 @@
 //! below the lower coil centre (m), the axis pitch `α` (rad), the strength
 //! `K = e^κ` (field units·m³) and the gain error `g` of the upper coils against
 //! the lower ones. Coil `c` reads the dipole field (Griffiths, *Introduction to
-//! Electrodynamics*, eq. 5.89) on its axis, [`model_jacobian`], times `1 + g`
+//! Electrodynamics*, eq. 5.89; in conducting ground the whole-space field of
+//! [`crate::field::ground`]) on its axis, [`model_jacobian_in`], times `1 + g`
 //! for an upper coil, times a sign `s_i = ±1` per station (the sonde's phase is
 //! unknown; `s_i` is the sign that fits best). Each reading's σ is its noise
 //! over the station (`σ_readout/√(1 + T/τ)` for a station of length `T` and
@@ -56,7 +57,7 @@
 //! direction they disagree on is reported as ambiguous.
 
 use crate::field::head::Head;
-use crate::locate::fit::{model_jacobian, Estimate};
+use crate::locate::fit::{model_jacobian_in, Estimate};
 use crate::locate::small::{inv3_spd, inv_spd, mul3, transpose3, wrap_pi, M3};
 
 /// Stations kept (the oldest is dropped when a new one starts).
@@ -162,7 +163,7 @@ pub struct TrailSettings {
     pub moving_floor: f32,
     /// A gap without signal longer than this starts a new trail, s.
     pub max_gap_s: f32,
-    /// Skin depth of the ground, m (infinite: no loss).
+    /// Skin depth of the ground, m (infinite: none).
     pub skin_depth_m: f32,
 }
 
@@ -742,25 +743,8 @@ impl<const N: usize> Trail<N> {
         let l = h.loc[i];
         let kk = libm::expf(h.glob[IK]);
         let th = [l[0], l[1], h.glob[IH], l[2], h.glob[IA], kk];
-        let (mut m0, mut jac) = model_jacobian(&self.head, &th);
-        // First-order loss in conducting ground, e^{−d/δ} on the path from the sonde to
-        // each coil (δ the skin depth; the same simplification as the simulator's soil).
-        let delta = self.settings.skin_depth_m;
-        if delta.is_finite() && delta > 0.0 {
-            for (c, coil) in self.head.coils.iter().enumerate() {
-                let r = [coil.pos_m[0] - l[0], coil.pos_m[1] - l[1], coil.pos_m[2] + h.glob[IH]];
-                let d = libm::sqrtf(r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).max(1e-6);
-                let att = libm::expf(-d / delta);
-                let dd = [-r[0] / d, -r[1] / d, r[2] / d];
-                for (k, dk) in [0usize, 1, 2].iter().zip(dd.iter()) {
-                    jac[c][*k] = att * jac[c][*k] - m0[c] * att / delta * dk;
-                }
-                for k in 3..6 {
-                    jac[c][k] *= att;
-                }
-                m0[c] *= att;
-            }
-        }
+        // In conducting ground, the whole-space field (field::ground).
+        let (m0, jac) = model_jacobian_in(&self.head, &th, self.settings.skin_depth_m);
         let gf = 1.0 + h.glob[IG];
         let mut m = [0.0; N];
         for c in 0..N {

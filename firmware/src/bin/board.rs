@@ -18,7 +18,7 @@
 use core::cell::RefCell;
 use cortex_m_rt::entry;
 use critical_section::Mutex;
-use embedded_hal_bus::spi::{ExclusiveDevice, NoDelay};
+use embedded_hal_bus::spi::ExclusiveDevice;
 use ssd1306::command::AddrMode;
 use ssd1306::mode::BasicMode;
 use ssd1306::prelude::*;
@@ -56,7 +56,18 @@ const QUEUE_CAP: usize = 256;
 /// Battery readings per second.
 const BATTERY_EVERY_MS: u64 = 100;
 
-type Bus = ExclusiveDevice<Spi<pac::SPI1>, Pin<'A', 4, Output>, NoDelay>;
+type Bus = ExclusiveDevice<Spi<pac::SPI1>, Pin<'A', 4, Output>, SpinDelay>;
+
+/// Delays inside an SPI transaction (the converter's driver asks for none): a busy wait at
+/// the 100 MHz core clock. The bus crate's `NoDelay` would panic instead, and its message costs
+/// more flash than this loop.
+struct SpinDelay;
+
+impl embedded_hal::delay::DelayNs for SpinDelay {
+    fn delay_ns(&mut self, ns: u32) {
+        cortex_m::asm::delay(ns / 10 + 1);
+    }
+}
 type Adc131 = Ads131<Bus, Pin<'B', 0, Input>, Delay<pac::TIM5, 1_000_000>, 4>;
 type BoardApp = App<Shared<'static, Adc131>, Oled, FlashStore, 4>;
 
@@ -125,7 +136,7 @@ fn main() -> ! {
     // 18 bytes takes 11.5 µs of the 31.25 µs between conversions at 32 kSPS.
     let spi = Spi::new(dp.SPI1, (Some(gpioa.pa5), Some(gpioa.pa6), Some(gpioa.pa7)), embedded_hal::spi::MODE_1, 12_500.kHz(), &mut rcc);
     let cs = gpioa.pa4.into_push_pull_output();
-    let Ok(bus) = ExclusiveDevice::new(spi, cs, NoDelay);
+    let Ok(bus) = ExclusiveDevice::new(spi, cs, SpinDelay);
     let mut drdy = gpiob.pb0.into_pull_up_input();
     let mut syscfg = dp.SYSCFG.constrain(&mut rcc);
     drdy.make_interrupt_source(&mut syscfg);
