@@ -9,6 +9,7 @@
 //! * [`sweep`], [`depthcheck`], [`map`]: the analysis commands; [`stats`]: their confidence intervals.
 //! * [`screens`]: what the board's screen shows during a run (GIF and PNG stills).
 
+pub mod calibrate;
 pub mod commands;
 pub mod depthcheck;
 pub mod detector_demo;

@@ -131,6 +131,9 @@ pub struct LocateSummary {
     pub median_time_s: Option<f64>,
     /// The detection range starts were drawn within, m.
     pub detection_range_m: f64,
+    /// The calibration made before the job, if the scenario asks for one.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<crate::calibrate::Found>,
     /// The usual caution.
     pub caution: &'static str,
 }
@@ -161,6 +164,7 @@ pub fn summarise(sc: &Scenario, results: &[StartResult]) -> Result<LocateSummary
         located: results.iter().filter(|r| r.located).count(),
         median_time_s: crate::stats::median(&mut times).map(mm),
         detection_range_m: mm(detection_range_m(sc)?),
+        calibration: crate::calibrate::found(sc)?,
         caution: crate::report::CAUTION_LINE,
     })
 }
@@ -219,7 +223,8 @@ fn one<const N: usize>(
     scn.sonde.push_speed_m_s = 0.0;
     scn.motion = vec![MotionSpec::Still { at: [start.x_m, start.y_m], heading_deg: start.heading_rad.to_degrees(), duration_s: 1.0 }];
     let mut synth = Synth::new(&scn, Some(seed.wrapping_add(1000 + index as u64)));
-    let settings = receiver_settings(sc, head, None);
+    let mut settings = receiver_settings(sc, head, None);
+    crate::calibrate::apply(sc, &mut settings)?;
     let mut rx = Receiver::new(settings).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let fs = synth.fs;
     let dt = rx.detector_info().readout_interval_s as f64;
@@ -460,6 +465,16 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
             sc.name, summary.starts, summary.detection_range_m
         )
         .map_err(io)?;
+        if let Some(c) = summary.calibration {
+            writeln!(
+                out,
+                "calibrated before the job with the sonde {:.2} m below the head: upper coil gain x{:.4}, gain tolerance left {:.2} %",
+                c.distance_m,
+                c.upper_gain,
+                100.0 * c.gain_tolerance
+            )
+            .map_err(io)?;
+        }
         writeln!(
             out,
             "located {} of {} ({:.1} %); median time {}",

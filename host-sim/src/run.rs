@@ -382,7 +382,8 @@ fn simulate_n<const N: usize>(
     mut views: Option<&mut Vec<undertone_firmware::view::View>>,
     mut progress: Option<&mut crate::progress::Progress>,
 ) -> Result<SimRun> {
-    let s = receiver_settings(sc, head, bw);
+    let mut s = receiver_settings(sc, head, bw);
+    crate::calibrate::apply(sc, &mut s)?;
     let mut rx = Receiver::new(s).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let mut synth = Synth::new(sc, seed);
     let ctx = crate::screens::context(sc, &s);

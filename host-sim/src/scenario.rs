@@ -58,6 +58,36 @@ pub struct Scenario {
     pub soil: SoilSpec,
     /// How the receiver moves: segments in order.
     pub motion: Vec<MotionSpec>,
+    /// A calibration made before the job (none when absent).
+    #[serde(default)]
+    pub calibration: Option<CalibrationSpec>,
+}
+
+/// A calibration before the job, as `undertone_dsp::locate::calibration` asks: the sonde laid
+/// level on the ground, the head held still and in line straight above it at a measured
+/// distance. The simulator makes the readings (same receiver, noise and mains; no ground), the
+/// receiver computes the upper coil's gain correction and the sonde's strength, and the gain
+/// tolerance becomes that correction's own σ.
+#[derive(Clone, Debug, Deserialize, Serialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct CalibrationSpec {
+    /// Distance from the lower coil centre down to the sonde, m.
+    pub distance_m: f64,
+    /// One-sigma of that distance as the person measures it, m (one draw from the seed).
+    #[serde(default = "default_distance_sigma")]
+    pub distance_sigma_m: f64,
+    /// Seconds of readings averaged (after the detector settles).
+    #[serde(default = "default_cal_seconds")]
+    pub seconds: f64,
+}
+
+fn default_distance_sigma() -> f64 {
+    // A tape measure held by hand to the receiver and the sonde: about a centimetre (from memory).
+    0.01
+}
+
+fn default_cal_seconds() -> f64 {
+    3.0
 }
 
 fn one() -> u64 {
@@ -413,6 +443,12 @@ impl Scenario {
 
     /// Check every value.
     pub fn validate(&self, p: &str) -> Result<()> {
+        if let Some(c) = &self.calibration {
+            let (lo, hi) = undertone_dsp::locate::calibration::DISTANCE_RANGE_M;
+            check(p, "calibration.distance_m", c.distance_m, lo as f64, hi as f64)?;
+            check(p, "calibration.distance_sigma_m", c.distance_sigma_m, 0.0, 0.1)?;
+            check(p, "calibration.seconds", c.seconds, 0.5, 60.0)?;
+        }
         let r = &self.receiver;
         // The sample rate first (the DSP's limits): the frequency limits below depend on it.
         ConfigError::check(Param::SampleRate, r.sample_rate_hz as f32, MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ)

@@ -83,6 +83,16 @@ pub fn calibrate(model: FieldModel, x: &CalInput) -> Result<Calibration, ConfigE
     Ok(Calibration { upper_gain: c, strength: k, strength_sigma: k * x.sigma_low / x.a_low })
 }
 
+/// Relative one-sigma of the upper-gain correction of [`calibrate`]: the two readings' noise and
+/// the known distance's own uncertainty `distance_sigma_m` (m), through
+/// `∂ln R_true/∂d = −n·s/(d(d + s))`. This is the gain tolerance left after the calibration.
+pub fn upper_gain_sigma(model: FieldModel, x: &CalInput, distance_sigma_m: f32) -> f32 {
+    let (d, s) = (x.distance_m, x.spacing_m);
+    let dist = model.exponent() * s / (d * (d + s)) * distance_sigma_m;
+    let (lo, up) = (x.sigma_low / x.a_low, x.sigma_up / x.a_up);
+    libm::sqrtf(lo * lo + up * up + dist * dist)
+}
+
 /// Result of the pre-job check.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -104,4 +114,26 @@ pub fn pre_job_check(model: FieldModel, a_low: f32, sigma: f32, distance_m: f32,
     let k_now = a_low * libm::powf(distance_m, model.exponent());
     let strength_ratio = if cal.strength > 0.0 { k_now / cal.strength } else { f32::NAN };
     PreJobCheck { tone_present: snr_db >= 20.0, snr_db, freq_offset_hz, strength_ratio }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn gain_sigma_follows_the_distance_as_the_correction_does() {
+        // The correction c = R_m/R_true moves with the distance used: a change δd of the known
+        // distance changes c by (∂c/∂d)·δd, which the σ's distance term must equal.
+        let x = CalInput { distance_m: 2.0, spacing_m: 0.4, a_low: 1.0, a_up: 0.6, sigma_low: 0.0, sigma_up: 0.0, vertical_ratio: 0.0 };
+        let c = |d: f32| calibrate(FieldModel::Dipole, &CalInput { distance_m: d, ..x }).unwrap().upper_gain;
+        let e = 0.01;
+        let slope = (c(2.0 + e) - c(2.0 - e)) / (2.0 * e) / c(2.0);
+        let noisy = CalInput { sigma_low: 1e-3, sigma_up: 1e-3, ..x };
+        let s = upper_gain_sigma(FieldModel::Dipole, &x, 0.01);
+        assert!((s - slope.abs() * 0.01).abs() < 1e-3 * s, "{s} against {}", slope.abs() * 0.01);
+        // 3·0.4/(2·2.4) = 0.25 per metre: 0.25 % for 1 cm.
+        assert!((s - 0.0025).abs() < 1e-5, "{s}");
+        let s2 = upper_gain_sigma(FieldModel::Dipole, &noisy, 0.0);
+        assert!((s2 - libm::hypotf(1e-3, 1e-3 / 0.6)).abs() < 1e-7, "{s2}");
+    }
 }

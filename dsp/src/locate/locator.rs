@@ -255,7 +255,13 @@ pub struct Locator<const N: usize> {
     over_held: bool,
     /// The trail's depth followed with a lag of [`DRIFT_TAU_S`] (NaN: none yet), m.
     depth_lag_m: f32,
+    /// The total field at the lower coils followed with a lag of [`STEADY_TAU_S`] (NaN: none yet).
+    total_lag_t: f32,
 }
+
+/// Time constant of the steady-field check, s, and the relative change it allows.
+const STEADY_TAU_S: f32 = 0.2;
+const STEADY_REL: f32 = 0.01;
 
 /// σ within which "over" is kept while the head stays still (it is claimed at 2σ).
 const HOLD_SIGMAS: f32 = 1.0;
@@ -306,6 +312,7 @@ impl<const N: usize> Locator<N> {
             quiet_s: 0.0,
             over_held: false,
             depth_lag_m: f32::NAN,
+            total_lag_t: f32::NAN,
         })
     }
 
@@ -417,8 +424,15 @@ impl<const N: usize> Locator<N> {
         let dt = (timing.t_s - self.last_t_s).clamp(0.0, 1.0) as f32;
         self.last_t_s = timing.t_s;
         let h_now = place.map(|p| p.depth_m.value).unwrap_or(1.0).max(0.05);
+        // A head standing still reads a steady field: the total at the lower coils, followed
+        // with a lag of STEADY_TAU_S, may not move by more than the noise or STEADY_REL,
+        // whatever the trail makes of it (it knows only what it asked for, and straight across
+        // a level sonde the field changes only at second order).
+        let lag = self.total_lag_t;
+        let steady = !lag.is_finite() || libm::fabsf(field.total - lag) <= (4.0 * sig_lo).max(STEADY_REL * lag);
+        self.total_lag_t = if lag.is_finite() && present { lag + (field.total - lag) * (dt / STEADY_TAU_S).min(1.0) } else { field.total };
         match place {
-            Some(p) if p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
+            Some(p) if steady && p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
             _ => self.still_for_s = 0.0,
         }
         // 5. The fit.
@@ -495,7 +509,14 @@ impl<const N: usize> Locator<N> {
         };
         // The trail's depth first: it fits pitch, offsets and the gain error with the depth,
         // so its σ carries them; the others assume a level sonde at the offsets given.
+        // While the trail's depth still drifts, none: the others would show what it has not
+        // settled (beside a pitched sonde the gradient's read 21 % deep with a σ of 2 %), and
+        // each says so.
         let mut best: Option<(DepthMethod, Depth)> = trail_depth.ok().map(|d| (DepthMethod::Trail, d));
+        let (gradient, fit_depth, known) = match trail_depth {
+            Err(Withheld::Settling) => (Err(Withheld::Settling), Err(Withheld::Settling), Err(Withheld::Settling)),
+            _ => (gradient, fit_depth, known),
+        };
         for (m, e) in [(DepthMethod::Gradient, gradient), (DepthMethod::Fit, fit_depth), (DepthMethod::KnownMoment, known)] {
             if let Ok(d) = e {
                 if best.map(|b| b.0 != DepthMethod::Trail && d.sigma_m < b.1.sigma_m).unwrap_or(true) {
