@@ -336,6 +336,11 @@ pub struct SoilSpec {
     pub conductivity_s_per_m: f64,
 }
 
+/// A limit of the DSP's (f32) as the f64 a person wrote: 0.2, not 0.20000000298023224.
+fn short(v: f32) -> f64 {
+    v.to_string().parse().unwrap_or(v as f64)
+}
+
 fn check(path: &str, field: &str, v: f64, lo: f64, hi: f64) -> Result<()> {
     if v.is_finite() && v >= lo && v <= hi {
         Ok(())
@@ -445,7 +450,7 @@ impl Scenario {
     pub fn validate(&self, p: &str) -> Result<()> {
         if let Some(c) = &self.calibration {
             let (lo, hi) = undertone_dsp::locate::calibration::DISTANCE_RANGE_M;
-            check(p, "calibration.distance_m", c.distance_m, lo as f64, hi as f64)?;
+            check(p, "calibration.distance_m", c.distance_m, short(lo), short(hi))?;
             check(p, "calibration.distance_sigma_m", c.distance_sigma_m, 0.0, 0.1)?;
             check(p, "calibration.seconds", c.seconds, 0.5, 60.0)?;
         }
@@ -470,7 +475,7 @@ impl Scenario {
         check(p, "receiver.assume_conductivity_s_per_m", r.assume_conductivity_s_per_m, 0.0, 10.0)?;
         if let Some(g) = r.gain_tolerance {
             let (lo, hi) = undertone_dsp::locate::locator::GAIN_TOLERANCE_RANGE;
-            check(p, "receiver.gain_tolerance", g, lo as f64, hi as f64)?;
+            check(p, "receiver.gain_tolerance", g, short(lo), short(hi))?;
         }
         let fs = r.sample_rate_hz;
         let sonde = |name: &str, s: &SondeSpec| -> Result<()> {

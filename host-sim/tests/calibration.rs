@@ -37,6 +37,6 @@ fn calibration_out_of_range_is_refused_by_name() {
     let mut sc = Scenario::demo();
     sc.calibration = Some(CalibrationSpec { distance_m: 9.0, distance_sigma_m: 0.01, seconds: 3.0 });
     let e = sc.validate("job.toml").unwrap_err().to_string();
-    assert!(e.contains("job.toml") && e.contains("calibration.distance_m") && e.contains("9"), "{e}");
+    assert!(e.contains("job.toml") && e.contains("calibration.distance_m = 9") && e.contains("allowed: 0.2 to 5"), "{e}");
     assert!(found(&Scenario::demo()).unwrap().is_none());
 }
