@@ -102,24 +102,33 @@ pub struct Found {
     pub gain_tolerance: f32,
 }
 
-/// The scenario's calibration with its head, if it asks for one.
+/// [`job_calibration`] with the scenario's own head.
+pub fn for_scenario(sc: &Scenario) -> Result<Option<(Calibration, f32)>> {
+    match sc.coils() {
+        6 => job_calibration(sc, Head::triads6()),
+        _ => job_calibration(sc, Head::reference4()),
+    }
+}
+
+/// The scenario's calibration as reported, if it asks for one.
 pub fn found(sc: &Scenario) -> Result<Option<Found>> {
-    let r = match sc.coils() {
-        6 => job_calibration(sc, Head::triads6())?,
-        _ => job_calibration(sc, Head::reference4())?,
-    };
-    Ok(r.zip(sc.calibration.as_ref()).map(|((c, s), spec)| Found {
+    Ok(for_scenario(sc)?.zip(sc.calibration.as_ref()).map(|((c, s), spec)| Found {
         distance_m: spec.distance_m,
         upper_gain: c.upper_gain,
         gain_tolerance: s,
     }))
 }
 
-/// Apply the scenario's calibration (if any) to receiver settings.
-pub fn apply<const N: usize>(sc: &Scenario, settings: &mut ReceiverSettings<N>) -> Result<()> {
-    if let Some((cal, sigma)) = job_calibration(sc, settings.head)? {
+/// Put a calibration made (if any) into receiver settings: the correction and the tolerance it leaves.
+pub fn set<const N: usize>(settings: &mut ReceiverSettings<N>, made: Option<(Calibration, f32)>) {
+    if let Some((cal, sigma)) = made {
         settings.locator.calibration = cal;
         settings.locator.gain_tolerance = sigma;
     }
+}
+
+/// Make the scenario's calibration (if any) and put it into receiver settings.
+pub fn apply<const N: usize>(sc: &Scenario, settings: &mut ReceiverSettings<N>) -> Result<()> {
+    set(settings, job_calibration(sc, settings.head)?);
     Ok(())
 }

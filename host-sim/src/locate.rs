@@ -44,6 +44,7 @@ use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
+use undertone_dsp::locate::calibration::Calibration;
 use undertone_dsp::locate::guidance::{over_tolerance_m, Guidance, Hint};
 use undertone_dsp::{Head, Readout, Receiver};
 
@@ -141,13 +142,15 @@ pub struct LocateSummary {
 /// Run `starts` starts of `sc` from `seed`.
 pub fn run(sc: &Scenario, starts: usize, seed: u64, on_done: &(dyn Fn() + Sync)) -> Result<Vec<StartResult>> {
     let range = detection_range_m(sc)?;
+    // One calibration for the job, shared by every start.
+    let cal = crate::calibrate::for_scenario(sc)?;
     let jobs: Vec<usize> = (0..starts).collect();
     let out: Vec<Result<StartResult>> = jobs
         .par_iter()
         .map(|&i| {
             let r = match sc.coils() {
-                6 => one::<6>(sc, Head::triads6(), i, seed, range, None),
-                _ => one::<4>(sc, Head::reference4(), i, seed, range, None),
+                6 => one::<6>(sc, Head::triads6(), cal, i, seed, range, None),
+                _ => one::<4>(sc, Head::reference4(), cal, i, seed, range, None),
             };
             on_done();
             r
@@ -209,6 +212,7 @@ impl Act {
 fn one<const N: usize>(
     sc: &Scenario,
     head: Head<N>,
+    cal: Option<(Calibration, f32)>,
     index: usize,
     seed: u64,
     range: f64,
@@ -224,7 +228,7 @@ fn one<const N: usize>(
     scn.motion = vec![MotionSpec::Still { at: [start.x_m, start.y_m], heading_deg: start.heading_rad.to_degrees(), duration_s: 1.0 }];
     let mut synth = Synth::new(&scn, Some(seed.wrapping_add(1000 + index as u64)));
     let mut settings = receiver_settings(sc, head, None);
-    crate::calibrate::apply(sc, &mut settings)?;
+    crate::calibrate::set(&mut settings, cal);
     let mut rx = Receiver::new(settings).map_err(|err| SimError::Config { context: format!("scenario '{}'", sc.name), err })?;
     let fs = synth.fs;
     let dt = rx.detector_info().readout_interval_s as f64;
@@ -428,9 +432,10 @@ fn step(pose: Pose, act: &mut Act, bearing_deg: Option<f32>, dt: f64) -> Pose {
 /// Print the readouts of one start as the operator saw them.
 pub fn trace(sc: &Scenario, start: usize, seed: u64, out: &mut dyn std::io::Write) -> Result<StartResult> {
     let range = detection_range_m(sc)?;
+    let cal = crate::calibrate::for_scenario(sc)?;
     match sc.coils() {
-        6 => one::<6>(sc, Head::triads6(), start, seed, range, Some(out)),
-        _ => one::<4>(sc, Head::reference4(), start, seed, range, Some(out)),
+        6 => one::<6>(sc, Head::triads6(), cal, start, seed, range, Some(out)),
+        _ => one::<4>(sc, Head::reference4(), cal, start, seed, range, Some(out)),
     }
 }
 

@@ -259,6 +259,16 @@ pub struct Locator<const N: usize> {
     total_lag_t: f32,
 }
 
+/// `x` followed with a lag of `tau_s` (first-order low pass over `dt_s`); a lagged value
+/// that is not finite starts again at `x`.
+fn follow(lag: f32, x: f32, dt_s: f32, tau_s: f32) -> f32 {
+    if lag.is_finite() {
+        lag + (x - lag) * (dt_s / tau_s).min(1.0)
+    } else {
+        x
+    }
+}
+
 /// Time constant of the steady-field check, s, and the relative change it allows.
 const STEADY_TAU_S: f32 = 0.2;
 const STEADY_REL: f32 = 0.01;
@@ -430,7 +440,7 @@ impl<const N: usize> Locator<N> {
         // a level sonde the field changes only at second order).
         let lag = self.total_lag_t;
         let steady = !lag.is_finite() || libm::fabsf(field.total - lag) <= (4.0 * sig_lo).max(STEADY_REL * lag);
-        self.total_lag_t = if lag.is_finite() && present { lag + (field.total - lag) * (dt / STEADY_TAU_S).min(1.0) } else { field.total };
+        self.total_lag_t = if present { follow(lag, field.total, dt, STEADY_TAU_S) } else { field.total };
         match place {
             Some(p) if steady && p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
             _ => self.still_for_s = 0.0,
@@ -495,8 +505,7 @@ impl<const N: usize> Locator<N> {
         self.last_hint = guidance.hint;
         // 7. Depths.
         if let Some(p) = place.as_ref() {
-            let (h, lag) = (p.depth_m.value, self.depth_lag_m);
-            self.depth_lag_m = if lag.is_finite() { lag + (h - lag) * (dt / DRIFT_TAU_S).min(1.0) } else { h };
+            self.depth_lag_m = follow(self.depth_lag_m, p.depth_m.value, dt, DRIFT_TAU_S);
         }
         let gate = self.depth_gate(signal, settling, clipped, distorted, place.as_ref(), &guidance);
         let (gradient, known, trail_depth) = match gate {
@@ -939,22 +948,15 @@ impl<const N: usize> Locator<N> {
             (RatioOf::Along, field.lower[0], field.upper[0], sig(lo[0]), sig(Some(up0)))
         };
         // In conducting ground the coils over the sonde read the transverse field, scaled by
-        // |A_t(d)| (field::ground): once without it for the depth, once with the upper reading
-        // brought to the lower coil's scale at that depth.
-        let mut soil = 1.0;
-        let mut d = Err(Withheld::NoCoils);
-        for _ in 0..2 {
-            d = gradient_depth(
-                s.model,
-                of,
-                CoilPair { low: a_lo, up: a_up * soil, sigma_low: s_lo, sigma_up: s_up * soil, spacing_m: sp },
-                s.gain_tolerance,
-                at,
-            );
-            let Ok(e) = d else { break };
-            soil = whole_space_factors(e.depth_m, s.skin_depth_m)[1] / whole_space_factors(e.depth_m + sp, s.skin_depth_m)[1];
+        // |A_t(d)| (field::ground): once without it for the depth, then again with the upper
+        // reading brought to the lower coil's scale at that depth.
+        let pair = |soil: f32| CoilPair { low: a_lo, up: a_up * soil, sigma_low: s_lo, sigma_up: s_up * soil, spacing_m: sp };
+        let mut d = gradient_depth(s.model, of, pair(1.0), s.gain_tolerance, at)?;
+        if s.skin_depth_m.is_finite() {
+            let soil = whole_space_factors(d.depth_m, s.skin_depth_m)[1] / whole_space_factors(d.depth_m + sp, s.skin_depth_m)[1];
+            d = gradient_depth(s.model, of, pair(soil), s.gain_tolerance, at)?;
         }
-        self.precise(d?)
+        self.precise(d)
     }
 
     /// Step 7c: the known-moment depth.
