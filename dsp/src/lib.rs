@@ -37,6 +37,7 @@ pub mod flags;
 pub mod format;
 pub mod locate;
 pub mod phasor;
+pub mod powf;
 pub mod receiver;
 
 pub use detect::settings::{Beacon, DetectorKind, DetectorSettings};

@@ -124,7 +124,7 @@ impl Job {
         s.n += 1;
         s.absent += (r.signal == Signal::Absent) as u32;
         s.magnitude += m;
-        s.magnitude_sigma += m / libm::powf(10.0, r.snr_db / 20.0);
+        s.magnitude_sigma += m / undertone_dsp::powf::powf(10.0, r.snr_db / 20.0);
         // Signed along readings on the lower coil's sign; the upper without its present correction.
         let sign = if r.field.signed[lo] < 0.0 { -1.0 } else { 1.0 };
         s.low += sign * r.field.signed[lo];

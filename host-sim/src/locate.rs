@@ -92,6 +92,10 @@ pub struct StartResult {
     pub depth_error_pct: Option<f64>,
     /// Why the start failed (None when located).
     pub failure: Option<String>,
+    /// Readouts that showed "over" on the way.
+    pub over_shown: usize,
+    /// Of those, farther than the tolerance from the point over the sonde.
+    pub over_too_far: usize,
     /// The operator's path, one point per 0.5 s (east, north), m.
     #[serde(skip)]
     pub path: Vec<(f64, f64)>,
@@ -132,6 +136,10 @@ pub struct LocateSummary {
     pub median_time_s: Option<f64>,
     /// The detection range starts were drawn within, m.
     pub detection_range_m: f64,
+    /// Readouts that showed "over", every start.
+    pub over_shown: usize,
+    /// Of those, farther than the tolerance from the point over the sonde.
+    pub over_too_far: usize,
     /// The calibration made before the job, if the scenario asks for one.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::calibrate::Found>,
@@ -167,6 +175,8 @@ pub fn summarise(sc: &Scenario, results: &[StartResult]) -> Result<LocateSummary
         located: results.iter().filter(|r| r.located).count(),
         median_time_s: crate::stats::median(&mut times).map(mm),
         detection_range_m: mm(detection_range_m(sc)?),
+        over_shown: results.iter().map(|r| r.over_shown).sum(),
+        over_too_far: results.iter().map(|r| r.over_too_far).sum(),
         calibration: crate::calibrate::found(sc)?,
         caution: crate::report::CAUTION_LINE,
     })
@@ -242,7 +252,14 @@ fn one<const N: usize>(
     let mut depth_since: Option<f64> = None;
     let mut path = vec![(pose.x_m, pose.y_m)];
     let mut next_path_t = 0.5;
-    let result = |synth: &Synth, pose: &Pose, t: f64, depth: Option<(f64, f64)>, path: Vec<(f64, f64)>, failure: Option<String>| {
+    let (mut over_shown, mut over_too_far) = (0usize, 0usize);
+    let result = |over: (usize, usize),
+                  synth: &Synth,
+                  pose: &Pose,
+                  t: f64,
+                  depth: Option<(f64, f64)>,
+                  path: Vec<(f64, f64)>,
+                  failure: Option<String>| {
         let truth = synth.truth_at(*pose, t);
         let miss = truth.range_m;
         let tol = over_tolerance_m(truth.depth_m as f32) as f64;
@@ -272,16 +289,32 @@ fn one<const N: usize>(
             true_depth_m: truth.depth_m,
             depth_error_pct: err,
             failure,
+            over_shown: over.0,
+            over_too_far: over.1,
             path,
         }
     };
     while t < MAX_TIME_S {
         // The operator acts on the latest readout, then the next interval is synthesised.
         if let Some(r) = last {
+            if r.guidance.over() {
+                // Claimed for a head standing still: the pose now is where it stood.
+                let tr = synth.truth_at(pose, t);
+                over_shown += 1;
+                over_too_far += usize::from(tr.range_m > over_tolerance_m(tr.depth_m as f32) as f64);
+            }
             if let Some(d) = r.depth.filter(|_| r.guidance.hint == Hint::HoldStill) {
                 let since = *depth_since.get_or_insert(t);
                 if t - since >= READ_AFTER_S {
-                    return Ok(result(&synth, &pose, t, Some((d.depth.depth_m as f64, d.depth.sigma_m as f64)), path, None));
+                    return Ok(result(
+                        (over_shown, over_too_far),
+                        &synth,
+                        &pose,
+                        t,
+                        Some((d.depth.depth_m as f64, d.depth.sigma_m as f64)),
+                        path,
+                        None,
+                    ));
                 }
             } else {
                 depth_since = None;
@@ -335,7 +368,7 @@ fn one<const N: usize>(
             next_path_t += 0.5;
         }
     }
-    Ok(result(&synth, &pose, t, None, path, Some(format!("no depth read within {MAX_TIME_S:.0} s"))))
+    Ok(result((over_shown, over_too_far), &synth, &pose, t, None, path, Some(format!("no depth read within {MAX_TIME_S:.0} s"))))
 }
 
 /// The operator's next act from the hint shown; `done` is the last move made.
@@ -487,6 +520,12 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
             summary.starts,
             100.0 * summary.located as f64 / summary.starts.max(1) as f64,
             summary.median_time_s.map(|t| format!("{t:.1} s")).unwrap_or_else(|| "--".into())
+        )
+        .map_err(io)?;
+        writeln!(
+            out,
+            "'over' shown on {} readouts on the way, {} of them farther than the over tolerance",
+            summary.over_shown, summary.over_too_far
         )
         .map_err(io)?;
         let fails: Vec<&StartResult> = results.iter().filter(|r| !r.located).collect();

@@ -179,7 +179,7 @@ pub fn default_bandwidth_hz(beacon: Beacon, kind: DetectorKind) -> f32 {
         DetectorKind::LockIn { poles } => {
             let p = poles.clamp(1, 4) as f32;
             // Per-pole corner that gives 66 dB at Δ: (1+(Δ/fp)^2)^(p/2) = 10^(66/20).
-            let x = libm::powf(10.0, 66.0 / (10.0 * p)) - 1.0;
+            let x = crate::powf::powf(10.0, 66.0 / (10.0 * p)) - 1.0;
             let fp = near / libm::sqrtf(x);
             let tau = 1.0 / (2.0 * core::f32::consts::PI * fp);
             (2.0 * enbw_tau_product(poles) / tau).clamp(MIN_BANDWIDTH_HZ, MAX_BANDWIDTH_HZ)

@@ -73,13 +73,13 @@ pub fn calibrate(model: FieldModel, x: &CalInput) -> Result<Calibration, ConfigE
         return Err(ConfigError { param: Param::Calibration, value: x.vertical_ratio, min: -MAX_CAL_RATIO, max: MAX_CAL_RATIO });
     }
     let n = model.exponent();
-    let r_true = libm::powf((x.distance_m + x.spacing_m) / x.distance_m, n);
+    let r_true = crate::powf::powf((x.distance_m + x.spacing_m) / x.distance_m, n);
     let r_m = x.a_low / x.a_up;
     let c = r_m / r_true;
     if !(c > UPPER_GAIN_RANGE.0 && c < UPPER_GAIN_RANGE.1) {
         return Err(ConfigError { param: Param::Calibration, value: c, min: UPPER_GAIN_RANGE.0, max: UPPER_GAIN_RANGE.1 });
     }
-    let k = x.a_low * libm::powf(x.distance_m, n);
+    let k = x.a_low * crate::powf::powf(x.distance_m, n);
     Ok(Calibration { upper_gain: c, strength: k, strength_sigma: k * x.sigma_low / x.a_low })
 }
 
@@ -111,7 +111,7 @@ pub struct PreJobCheck {
 pub fn pre_job_check(model: FieldModel, a_low: f32, sigma: f32, distance_m: f32, freq_offset_hz: f32, cal: &Calibration) -> PreJobCheck {
     let snr = if sigma > 0.0 { a_low / sigma } else { f32::INFINITY };
     let snr_db = 20.0 * libm::log10f(snr.max(1e-9));
-    let k_now = a_low * libm::powf(distance_m, model.exponent());
+    let k_now = a_low * crate::powf::powf(distance_m, model.exponent());
     let strength_ratio = if cal.strength > 0.0 { k_now / cal.strength } else { f32::NAN };
     PreJobCheck { tone_present: snr_db >= 20.0, snr_db, freq_offset_hz, strength_ratio }
 }

@@ -361,7 +361,7 @@ pub fn known_moment_depth(model: FieldModel, b: f32, sigma_b: f32, k: f32, sigma
             libm::sqrtf(f[0] * f[0] + f[1] * f[1] + f[2] * f[2])
         }
     };
-    let h_of = |u: f32, eta: f32| libm::powf(k * shape(u, eta) / b, 1.0 / n);
+    let h_of = |u: f32, eta: f32| crate::powf::powf(k * shape(u, eta) / b, 1.0 / n);
     let h = h_of(at.u, at.eta);
     let rel = libm::sqrtf((sigma_b / b) * (sigma_b / b) + (sigma_k / k) * (sigma_k / k)) / n;
     let su = libm::fabsf(h_of(libm::fabsf(at.u) + at.sigma_u, at.eta) - h);

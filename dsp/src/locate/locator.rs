@@ -243,6 +243,12 @@ pub struct Locator<const N: usize> {
     /// Seconds the head has been still (by the trail's speed), 0 while moving.
     still_for_s: f32,
     last_t_s: f64,
+    /// When the last move asked for should be done at the pace asked, s.
+    move_until_s: f64,
+    /// The person set off on the last move asked for.
+    move_set_off: bool,
+    /// How long the last move asked for takes at the pace asked, s.
+    move_s: f32,
     last_fix: Option<[f32; P]>,
     held_fix: Option<Fix>,
     readouts: u32,
@@ -314,6 +320,9 @@ impl<const N: usize> Locator<N> {
             lost_for_s: 0.0,
             still_for_s: 0.0,
             last_t_s: 0.0,
+            move_until_s: f64::NEG_INFINITY,
+            move_set_off: false,
+            move_s: 0.0,
             last_fix: None,
             held_fix: None,
             readouts: 0,
@@ -355,6 +364,7 @@ impl<const N: usize> Locator<N> {
         self.last_fix = None;
         self.held_fix = None;
         self.last_depth_m = None;
+        self.move_until_s = f64::NEG_INFINITY;
         self.depth_lag_m = f32::NAN;
     }
 
@@ -441,8 +451,17 @@ impl<const N: usize> Locator<N> {
         let lag = self.total_lag_t;
         let steady = !lag.is_finite() || libm::fabsf(field.total - lag) <= (4.0 * sig_lo).max(STEADY_REL * lag);
         self.total_lag_t = if present { follow(lag, field.total, dt, STEADY_TAU_S) } else { field.total };
+        // Nor is a head that set off on a move of a set distance across the axis, until the
+        // move should be done at the pace asked: across the top of a level sonde the field
+        // changes only at second order, and mid-sweep "over" was shown to a person still
+        // sweeping, 0.24 m past the point.
+        // Set off: the readouts still change two group delays after the ask (before that
+        // they may carry the motion that brought the person there).
+        let asked_s = self.move_until_s - self.move_s as f64;
+        self.move_set_off |= self.trail.last_change_s().is_some_and(|t| t as f64 > asked_s + 2.0 * timing.group_delay_s as f64);
+        let moving_as_asked = self.move_set_off && timing.t_s < self.move_until_s;
         match place {
-            Some(p) if steady && p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
+            Some(p) if steady && !moving_as_asked && p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
             _ => self.still_for_s = 0.0,
         }
         // 5. The fit.
@@ -700,6 +719,11 @@ impl<const N: usize> Locator<N> {
         };
         self.move_id = self.move_id.wrapping_add(1);
         let across = matches!(hint, Hint::StepLeft | Hint::StepRight | Hint::SweepAcross);
+        // Only a move across the axis is timed: along it the vertical field changes at first
+        // order over the sonde, and steady readouts do mean the head has stopped.
+        self.move_s = if across { libm::fabsf(dist) / crate::locate::trail::MOVE_PACE_M_S } else { 0.0 };
+        self.move_until_s = self.last_t_s + self.move_s as f64;
+        self.move_set_off = false;
         let r = MoveRequest { id: self.move_id, ahead_m: if across { 0.0 } else { dist }, left_m: if across { dist } else { 0.0 } };
         self.request = Some(r);
         self.request_hint = hint;
@@ -716,7 +740,11 @@ impl<const N: usize> Locator<N> {
             return Guidance::unsure(Withheld::NeedsMotion, hint);
         };
         let h = h_hint.unwrap_or(p.depth_m.value).max(0.05);
-        let tol = over_tolerance_m(h);
+        // "Over" is claimed against the tolerance of a depth the trail is sure of, its value
+        // less two σ: 12 m from a sonde 4 m down, a depth of tens of metres from the noisy
+        // coil ratio set the tolerance, and "over" was shown 11 m off.
+        let h_sure = (p.depth_m.value - 2.0 * p.depth_m.sigma).max(0.0);
+        let tol = over_tolerance_m(h.min(h_sure));
         let mut g = Guidance {
             along: Along::Unsure,
             across: Across::Unsure,
@@ -925,12 +953,19 @@ impl<const N: usize> Locator<N> {
         self.precise(d)
     }
 
-    /// A rough depth from the coil ratio taken as if over the sonde (no gate), for scaling
-    /// tolerances only; `None` where the ratio is not physical.
+    /// A rough depth from the coil ratio taken as if over the sonde, for scaling moves and
+    /// tolerances only; `None` where the ratio is not physical or too noisy to tell.
     fn provisional_depth(&self, field: &FieldVector<N>) -> Option<f32> {
         let sp = self.head.spacing_m()?;
+        let (lo, up) = (self.head.roles.lower[0]?, self.head.roles.upper[0]?);
         let r = field.lower[0] / field.upper[0];
-        solve_g(self.settings.model, RatioOf::Along, 0.0, 0.0, libm::fabsf(r)).map(|g| sp / g)
+        let h = solve_g(self.settings.model, RatioOf::Along, 0.0, 0.0, libm::fabsf(r)).map(|g| sp / g)?;
+        // Only where the ratio's noise leaves the depth known to a third: over a level
+        // sonde R = ((h+s)/h)³, so σ_h/h = σ_lnR·(h+s)/(3s). Far off, the ratio is near 1
+        // and its noise alone made depths of tens of metres.
+        let rel = |i: u8, v: f32| field.sigma[i as usize] / libm::fabsf(v).max(1e-30);
+        let s_ln_r = libm::hypotf(rel(lo, field.lower[0]), rel(up, field.upper[0]));
+        (s_ln_r * (h + sp) / (3.0 * sp) < 0.3).then_some(h)
     }
 
     /// Step 7b: the gradient depth.

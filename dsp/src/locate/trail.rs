@@ -397,6 +397,12 @@ impl<const N: usize> Trail<N> {
         self.pending.is_some()
     }
 
+    /// When the readouts last changed during the move being made, s (`None`: no move, or no
+    /// change yet).
+    pub fn last_change_s(&self) -> Option<f32> {
+        self.pending.filter(|p| p.changed).and_then(|p| p.steady_since)
+    }
+
     /// Stations held.
     pub fn stations(&self) -> usize {
         self.len
@@ -1326,7 +1332,7 @@ mod tests {
         let h = 1.5f32;
         let k = 1.0f32;
         let peak = k / (h * h * h);
-        let sigma = peak * libm::powf(10.0, -snr_db / 20.0);
+        let sigma = peak * crate::powf::powf(10.0, -snr_db / 20.0);
         let mut out = Vec::new();
         let mut none = 0;
         for (i, &(x, y, hd)) in path.iter().enumerate() {
