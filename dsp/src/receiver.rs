@@ -254,7 +254,7 @@ impl<const N: usize> Receiver<N> {
             phasors: d.phasors,
             field: l.field,
             strength,
-            strength_db: 20.0 * libm::log10f(strength.max(1e-30)),
+            strength_db: 20.0 * crate::powf::log10f(strength.max(1e-30)),
             snr_db: l.snr_db,
             bearing_deg: l.field.bearing_rad.to_degrees(),
             signal: l.signal,

@@ -95,9 +95,9 @@ fn decimal_digits(mut n: u64, out: &mut [u8; 10]) -> usize {
 fn shortest(v: f32) -> (u64, i32) {
     let a = libm::fabsf(v);
     let x = a as f64;
-    // In f32 (its `log10f` is in the image already; f64's would add 0.7 KiB): off by one at
+    // In f32 (`ln x·log₁₀ e`, from the `logf` in the image already; f64's would add 0.7 KiB): off by one at
     // most near powers of ten, which the two steps below settle.
-    let mut e10 = libm::floorf(libm::log10f(a)) as i32;
+    let mut e10 = libm::floorf(undertone_dsp::powf::log10f(a)) as i32;
     if x >= pow10_signed(e10 + 1) {
         e10 += 1;
     } else if x < pow10_signed(e10) {

@@ -185,7 +185,13 @@ impl TextPage {
         let mut t = TextPage::default();
         let _ = t.title.push_str(title);
         let mut row: String<21> = String::new();
-        for w in text.split(' ') {
+        // Words by a plain byte scan (`str::split` brought 360 bytes of searcher code into
+        // the board image for this one use).
+        let mut rest = text;
+        while !rest.is_empty() {
+            let k = rest.bytes().position(|b| b == b' ').unwrap_or(rest.len());
+            let w = rest.get(..k).unwrap_or(rest);
+            rest = rest.get(k + 1..).unwrap_or("");
             let w = w.get(..21).unwrap_or(w);
             if row.len() + w.len() + 1 > 21 && !row.is_empty() && t.rows.push(core::mem::take(&mut row)).is_err() {
                 break;

@@ -141,6 +141,9 @@ pub struct TrailRow {
     pub ambiguous_ahead: bool,
     /// … or left/right.
     pub ambiguous_left: bool,
+    /// How much worse (χ²) the best explanation that puts the sonde elsewhere fits (null: none
+    /// found).
+    pub runner_up_chi2: Option<f64>,
     /// Head speed over the last stations, m/s.
     pub speed_m_s: f64,
 }
@@ -297,6 +300,7 @@ pub fn row<const N: usize>(r: &Readout<N>, fs: f64, truth: Option<TruthRow>, ref
             depth_sigma_m: p.depth_m.sigma as f64,
             ambiguous_ahead: p.ambiguous_ahead,
             ambiguous_left: p.ambiguous_left,
+            runner_up_chi2: Some(p.runner_up_chi2 as f64).filter(|v| v.is_finite()),
             speed_m_s: p.speed_m_s as f64,
         }),
         truth,

@@ -106,3 +106,23 @@ duration_s = 1
     let want = 1e-7 / 8.0 / 1e-7 * 8_388_607.0; // K/h³ over full scale, in codes
     assert!((amp_codes / want - 1.0).abs() < 1e-4, "{amp_codes} vs {want}");
 }
+
+#[test]
+fn demo_never_shows_the_wrong_side() {
+    // The demo's walk across the top of the sonde drifts sideways while told to hold still:
+    // straight across a level dipole the field is the same either side (Griffiths eq. 5.89 at
+    // x = 0: B = −m/r³ along the axis), so the side cannot come from the field there. Every
+    // side shown must be the true one (at an earlier commit 22 of 25 were wrong).
+    let sc = Scenario::demo();
+    let run = simulate(&sc, None, None).unwrap();
+    let mut shown = 0;
+    for r in &run.rows {
+        let t = r.truth.as_ref().unwrap();
+        if r.across == "left" || r.across == "right" {
+            shown += 1;
+            assert_eq!(r.across == "left", t.left_m > 0.0, "t = {} s: {} shown, truly {:+.2} m to the left", r.t_s, r.across, t.left_m);
+        }
+    }
+    // And the rest of the guidance still stands: "over" is shown on the stands over the sonde.
+    assert!(run.rows.iter().filter(|r| r.over).count() > 40, "{shown} sides shown");
+}

@@ -50,7 +50,7 @@ impl MainsReport {
                 let r = response(off as f64);
                 // In f32 (0.1 dB is all a table needs); below f32's range the floor of 300 dB.
                 let r = r as f32;
-                let db = if r >= f32::MIN_POSITIVE && r.is_finite() { -20.0 * libm::log10f(r) } else { 300.0 };
+                let db = if r >= f32::MIN_POSITIVE && r.is_finite() { -20.0 * crate::powf::log10f(r) } else { 300.0 };
                 hs[gi * 2 + k] = Harmonic { grid_hz: *grid, order: *n, freq_hz: f, offset_hz: off, rejection_db: db };
             }
         }

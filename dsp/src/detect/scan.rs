@@ -100,7 +100,7 @@ pub fn scan(x: &[f32], s: &ScanSettings) -> Result<Vec<Tone, MAX_TONES>, ConfigE
         if found.iter().any(|t| libm::fabsf(t.freq_hz - ff) < step) {
             continue;
         }
-        let snr = 10.0 * libm::log10f(p / mean.max(f32::MIN_POSITIVE));
+        let snr = 10.0 * crate::powf::log10f(p / mean.max(f32::MIN_POSITIVE));
         // Kept strongest first by insertion (at most 2·MAX_TONES entries; core's sort would
         // cost the board image 2.6 KiB). A NaN amplitude goes last.
         let at = found.iter().position(|t| t.amplitude < amp).unwrap_or(found.len());

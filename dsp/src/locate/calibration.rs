@@ -110,7 +110,7 @@ pub struct PreJobCheck {
 /// Pre-job check from a peak reading `a_low` (σ) at `distance_m` and the calibration.
 pub fn pre_job_check(model: FieldModel, a_low: f32, sigma: f32, distance_m: f32, freq_offset_hz: f32, cal: &Calibration) -> PreJobCheck {
     let snr = if sigma > 0.0 { a_low / sigma } else { f32::INFINITY };
-    let snr_db = 20.0 * libm::log10f(snr.max(1e-9));
+    let snr_db = 20.0 * crate::powf::log10f(snr.max(1e-9));
     let k_now = a_low * crate::powf::powf(distance_m, model.exponent());
     let strength_ratio = if cal.strength > 0.0 { k_now / cal.strength } else { f32::NAN };
     PreJobCheck { tone_present: snr_db >= 20.0, snr_db, freq_offset_hz, strength_ratio }

@@ -287,7 +287,7 @@ const VAGUE_SIGMA: f32 = 3.0;
 
 /// Classify the signal from the lower triad's SNR (amplitude ratio).
 pub fn classify_signal(snr: f32, s: &LocatorSettings) -> Signal {
-    let db = 20.0 * libm::log10f(snr.max(1e-9));
+    let db = 20.0 * crate::powf::log10f(snr.max(1e-9));
     if !(db >= s.signal_snr_db) {
         Signal::Absent
     } else if db < s.locate_snr_db {
@@ -393,7 +393,7 @@ impl<const N: usize> Locator<N> {
         // (with noise alone, a χ with as many degrees of freedom as noise components).
         let white = |i: u8| field.signed[i as usize] / field.sigma[i as usize].max(1e-30);
         let snr = libm::sqrtf(lo.iter().flatten().map(|&i| white(i) * white(i)).sum::<f32>()).clamp(0.0, 1e15);
-        let snr_db = 20.0 * libm::log10f(snr.max(1e-6));
+        let snr_db = 20.0 * crate::powf::log10f(snr.max(1e-6));
         // A detection with a non-finite phasor or no noise estimate on any coil is not
         // a usable measurement (the detector flags the cause); nothing is located from it.
         let usable = (0..N).all(|i| {

@@ -101,12 +101,17 @@ pub fn wrap_pi(a: f32) -> f32 {
     if !a.is_finite() {
         return 0.0;
     }
+    // The nearest whole turn taken off (`roundf`, not `fmodf`: the angles here are a few
+    // turns at most, and `fmodf`'s exact remainder cost 300 bytes of the board's flash).
     let tau = core::f32::consts::TAU;
-    let mut x = libm::fmodf(a + core::f32::consts::PI, tau);
-    if x < 0.0 {
-        x += tau;
+    let x = a - tau * libm::roundf(a / tau);
+    if x <= -core::f32::consts::PI {
+        x + tau
+    } else if x > core::f32::consts::PI {
+        x - tau
+    } else {
+        x
     }
-    x - core::f32::consts::PI
 }
 
 #[cfg(test)]

@@ -271,6 +271,9 @@ struct Station<const N: usize> {
     /// Readout interval, s.
     dt_s: f32,
     motion: Motion,
+    /// Length of path pooled into the station, as the fit put it when pooling, m (0 for
+    /// one place).
+    span_m: f32,
 }
 
 impl<const N: usize> Station<N> {
@@ -366,7 +369,8 @@ impl<const N: usize> Trail<N> {
                 upper[*i as usize] = true;
             }
         }
-        let empty = Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, dt_s: 0.05, motion: Motion::Hold };
+        let empty =
+            Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, dt_s: 0.05, motion: Motion::Hold, span_m: 0.0 };
         Self {
             head: h,
             upper,
@@ -620,16 +624,97 @@ impl<const N: usize> Trail<N> {
                 return false;
             }
         }
-        if self.len == STATIONS {
+        if self.len == STATIONS && !self.merge_closest() {
             self.drop_oldest();
         }
         let mut var = [0.0; N];
         for c in 0..N {
             var[c] = rd.sigma[c] * rd.sigma[c];
         }
-        self.st[self.len] =
-            Station { sum: rd.signed, var, n: 1, t0: rd.t_s, t1: rd.t_s, corr_s: rd.noise_corr_s.max(1e-3), dt_s: dt, motion: rd.motion };
+        self.st[self.len] = Station {
+            sum: rd.signed,
+            var,
+            n: 1,
+            t0: rd.t_s,
+            t1: rd.t_s,
+            corr_s: rd.noise_corr_s.max(1e-3),
+            dt_s: dt,
+            motion: rd.motion,
+            span_m: 0.0,
+        };
         self.len += 1;
+        true
+    }
+
+    /// Make room by pooling two neighbouring stations the best fit puts within
+    /// [`MERGE_DEPTHS`] of the depth of each other (a sweep at walking pace makes a station
+    /// every few centimetres; a sonde 4 m down needs one every 20 cm), so that the window
+    /// keeps the sweeps that tie the place down rather than forgetting the oldest. A
+    /// station pooled over a stretch `L` reads the field averaged over it, off the field at
+    /// its middle by about `B''·L²/24`, within the moving floor for `L ≤ 0.1·h`
+    /// ([`TrailSettings::moving_floor`]). The newest [`KEEP_RECENT`] stations and those of a
+    /// move under way are left alone; so are stations either side of a turn, and a move of a
+    /// set distance is carried over whole to the link after. False: nothing to pool.
+    fn merge_closest(&mut self) -> bool {
+        let Some(b) = self.best() else { return false };
+        if self.last_t - self.st[0].t0 > MERGE_SPAN_S {
+            return false;
+        }
+        let h = self.hyp[b];
+        let depth = h.glob[IH];
+        let mut end = self.len.saturating_sub(KEEP_RECENT);
+        if let Some(p) = self.pending {
+            end = end.min(p.first.saturating_sub(1));
+        }
+        let kind = |m: Motion| core::mem::discriminant(&m);
+        let mut pick: Option<(usize, f32)> = None;
+        for i in 0..end.saturating_sub(1) {
+            let (a, c) = (&self.st[i], &self.st[i + 1]);
+            // Half the link into i+1 joins each link either side: only where the three are
+            // of one kind (a move of a set distance adds up; a prior of zero mean stays
+            // what it was), and never across a turn or a free link.
+            let same = kind(a.motion) == kind(c.motion) && (i + 2 >= self.len || kind(self.st[i + 2].motion) == kind(c.motion));
+            if matches!(c.motion, Motion::Turn | Motion::Free) || !same {
+                continue;
+            }
+            let (p, q) = (h.loc[i], h.loc[i + 1]);
+            let dpsi = libm::fabsf(wrap_pi(p[2] - q[2]));
+            let sep = libm::hypotf(p[0] - q[0], p[1] - q[1]) + a.span_m + c.span_m;
+            if dpsi < MERGE_TURN_RAD && sep < MERGE_DEPTHS * depth && pick.is_none_or(|(_, d)| sep < d) {
+                pick = Some((i, sep));
+            }
+        }
+        let Some((i, sep)) = pick else { return false };
+        let (a, c) = (self.st[i], self.st[i + 1]);
+        let dot: f32 = (0..N).map(|k| a.sum[k] * c.sum[k]).sum();
+        let sg = if dot < 0.0 { -1.0 } else { 1.0 };
+        let mut m = a;
+        for k in 0..N {
+            m.sum[k] += sg * c.sum[k];
+            m.var[k] += c.var[k];
+        }
+        m.n += c.n;
+        m.t1 = c.t1;
+        m.corr_s = m.corr_s.max(c.corr_s);
+        m.span_m = sep;
+        // The pooled station stands at the middle: half the move between the two joins
+        // each of the links either side.
+        m.motion = with_half_of(a.motion, c.motion);
+        self.st[i] = m;
+        if i + 2 < self.len {
+            self.st[i + 2].motion = with_half_of(self.st[i + 2].motion, c.motion);
+        }
+        self.st.copy_within(i + 2..self.len, i + 1);
+        for o in self.hyp.iter_mut() {
+            let (p, q) = (o.loc[i], o.loc[i + 1]);
+            o.loc[i] = [0.5 * (p[0] + q[0]), 0.5 * (p[1] + q[1]), wrap_pi(p[2] + 0.5 * wrap_pi(q[2] - p[2]))];
+            o.loc.copy_within(i + 2..self.len, i + 1);
+        }
+        if let Some(p) = self.pending.as_mut() {
+            p.first = p.first.saturating_sub(1);
+        }
+        self.len -= 1;
+        self.cov = None;
         true
     }
 
@@ -1101,8 +1186,18 @@ impl<const N: usize> Trail<N> {
             if h.live && !dup && !hopeless {
                 continue;
             }
-            let kind = self.next_seed % 5;
-            self.next_seed = self.next_seed.wrapping_add(1);
+            // The left/right mirror first whenever no other fit stands on the far side: over
+            // the axis of a level sonde the field cannot tell the sides apart, and a side
+            // taken there by chance was shown wrong for as long as the mirror was missing.
+            let mirror_missing = libm::fabsf(hb.loc[last][1]) > 0.05 * scale
+                && !(0..HYPOTHESES).any(|j| j != b && j != k && self.hyp[j].live && self.hyp[j].loc[last][1] * hb.loc[last][1] < 0.0);
+            let kind = if mirror_missing {
+                1
+            } else {
+                let kind = self.next_seed % 5;
+                self.next_seed = self.next_seed.wrapping_add(1);
+                kind
+            };
             let mut n = hb;
             // Far from the sonde the field's pattern hardly changes with scale (all
             // distances and the depth ×λ, strength ×λ³); only the coil pair tells.
@@ -1251,6 +1346,15 @@ pub const MAX_DEPTH_M: f32 = 30.0;
 
 /// Most stations kept during one move.
 const MAX_MOVE_STATIONS: usize = 24;
+/// Two stations closer than this many depths (path and pooled spans together) may be pooled
+/// when the window is full.
+const MERGE_DEPTHS: f32 = 0.025;
+/// … and turned by less than this between them, rad.
+const MERGE_TURN_RAD: f32 = 0.05;
+/// Stations are pooled only while the window spans less than this, s.
+const MERGE_SPAN_S: f32 = 30.0;
+/// The newest stations are never pooled, so the directions follow the head.
+const KEEP_RECENT: usize = 8;
 /// A station while the head turns spans at most this long, s.
 const TURN_STATION_S: f32 = 0.25;
 /// Floor of a reading's σ while the head turns, relative to the field: the detector's
@@ -1300,6 +1404,23 @@ impl Solution {
         Solution { dl: [[0.0; 3]; STATIONS], dg: [0.0; G], cov_g: [[f32::INFINITY; G]; G], cov_last: [[f32::INFINITY; 3]; 3] };
 }
 
+/// Link `m` with half of the move `c` added (both moves of a set distance: the distances
+/// add, the σ of independent halves add in quadrature); any other link stays as it is.
+fn with_half_of(m: Motion, c: Motion) -> Motion {
+    match (m, c) {
+        (
+            Motion::Moved { ahead_m, left_m, sigma_ahead_m, sigma_left_m },
+            Motion::Moved { ahead_m: a2, left_m: l2, sigma_ahead_m: sa2, sigma_left_m: sl2 },
+        ) => Motion::Moved {
+            ahead_m: ahead_m + 0.5 * a2,
+            left_m: left_m + 0.5 * l2,
+            sigma_ahead_m: libm::sqrtf(sigma_ahead_m * sigma_ahead_m + 0.5 * sa2 * sa2),
+            sigma_left_m: libm::sqrtf(sigma_left_m * sigma_left_m + 0.5 * sl2 * sl2),
+        },
+        (m, _) => m,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     extern crate std;
@@ -1326,6 +1447,12 @@ mod tests {
     /// Readings of a level dipole 1.5 m below, the head at (x, y) heading `hd` (rad),
     /// the sonde axis along world x: returns the sonde's place relative to the head.
     fn walk_case(path: &[(f32, f32, f32)], snr_db: f32, seed: u64) -> (Vec<(f32, f32, Place)>, usize) {
+        let (_, out, none) = walk_trail(path, snr_db, seed);
+        (out, none)
+    }
+
+    /// [`walk_case`], with the trail as it ends.
+    fn walk_trail(path: &[(f32, f32, f32)], snr_db: f32, seed: u64) -> (Trail<4>, Vec<(f32, f32, Place)>, usize) {
         let head = Head::reference4();
         let mut tr = Trail::new(&head, TrailSettings::default());
         let mut g = Gauss(seed);
@@ -1359,7 +1486,7 @@ mod tests {
                 _ => none += 1,
             }
         }
-        (out, none)
+        (tr, out, none)
     }
 
     #[test]
@@ -1380,5 +1507,35 @@ mod tests {
         let within = |v: &Vec<f32>, k: f32| v.iter().filter(|z| z.abs() <= k).count() as f32 / v.len() as f32;
         std::println!("none {none} ahead 2σ {:.3} left 2σ {:.3} n {}", within(&za, 2.0), within(&zl, 2.0), za.len());
         assert!(within(&za, 2.0) > 0.9 && within(&zl, 2.0) > 0.9);
+    }
+
+    #[test]
+    fn a_full_window_pools_close_stations_and_keeps_its_sigma() {
+        // Slow sweeps along x over the sonde, −1 m to +1 m and back twice at 0.1 m/s (5 mm per
+        // readout, a station every 25 mm: closer than 2.5 % of the 1.5 m depth), 0.2 m to the
+        // side: 80 s, far more stations than the window holds.
+        let leg: Vec<f32> = (0..400).map(|i| -1.0 + 0.005 * i as f32).collect();
+        let mut xs = leg.clone();
+        xs.extend(leg.iter().rev());
+        xs.extend(leg.iter());
+        xs.extend(leg.iter().rev());
+        let path: Vec<(f32, f32, f32)> = xs.iter().map(|&x| (x, 0.2, 0.0)).collect();
+        let (mut za, mut zl) = (Vec::new(), Vec::new());
+        for seed in 1..=6u64 {
+            let (tr, out, _) = walk_trail(&path, 50.0, seed);
+            let t_end = 0.05 * (path.len() - 1) as f32;
+            let first = tr.station(0).unwrap();
+            // Without pooling the window would reach back STATIONS × 0.25 s = 12 s; pooling
+            // stops once it spans MERGE_SPAN_S.
+            assert!(t_end - first.t0_s > 20.0, "window reaches back {} s", t_end - first.t0_s);
+            assert!(t_end - first.t0_s < MERGE_SPAN_S + 15.0, "window reaches back {} s", t_end - first.t0_s);
+            for (ax, ay, p) in out.iter().skip(300) {
+                za.push((p.ahead_m.value - ax) / p.ahead_m.sigma);
+                zl.push((p.left_m.value - ay) / p.left_m.sigma);
+            }
+        }
+        let within = |v: &Vec<f32>| v.iter().filter(|z| z.abs() <= 2.0).count() as f32 / v.len() as f32;
+        std::println!("pooled: ahead 2σ {:.3} left 2σ {:.3} n {}", within(&za), within(&zl), za.len());
+        assert!(za.len() > 6 * 1000 && within(&za) > 0.9 && within(&zl) > 0.9);
     }
 }
