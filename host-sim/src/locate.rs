@@ -549,7 +549,8 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
             }
         }
     }
-    // The tracks over the field map: located in white, not located in red (at most 40 of each).
+    // The tracks over the field map: located in white, not located in magenta (at most 40 of
+    // each; red is the sonde's own mark, and a failed track in red hid it).
     let mut tracks: Vec<crate::plots::Track> = Vec::new();
     for r in results.iter().filter(|r| r.located).take(40) {
         tracks.push((
@@ -563,7 +564,7 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
         tracks.push((
             if first_fail { "not located".into() } else { String::new() },
             r.path.clone(),
-            plotters::style::RGBColor(255, 60, 60),
+            plotters::style::RGBColor(255, 0, 220),
         ));
         first_fail = false;
     }
