@@ -52,15 +52,17 @@
 //! # Ambiguity
 //! [`HYPOTHESES`] fits run side by side from different starts (the best one
 //! mirrored ahead/behind and left/right, or stretched past the nulls and
-//! back). Where another fit is within [`AMBIGUITY_CHI2`] of the best and puts
-//! the sonde elsewhere, the readings cannot tell the two apart and the
-//! direction they disagree on is reported as ambiguous.
+//! back; the left/right mirror is always among them). Where another fit is
+//! within [`AMBIGUITY_CHI2`] of the best and puts the sonde elsewhere, the
+//! readings cannot tell the two apart and the direction they disagree on is
+//! reported as ambiguous.
 
 use crate::field::head::Head;
 use crate::locate::fit::{model_jacobian_in, Estimate};
 use crate::locate::small::{inv3_spd, inv_spd, mul3, transpose3, wrap_pi, M3};
 
-/// Stations kept (the oldest is dropped when a new one starts).
+/// Stations kept. When a new one starts in a full window, two neighbouring stations
+/// within 2.5 % of the depth of each other are pooled, or else the oldest is dropped.
 pub const STATIONS: usize = 48;
 /// Fits run side by side.
 pub const HYPOTHESES: usize = 4;
