@@ -243,8 +243,8 @@ pub struct Locator<const N: usize> {
     /// Seconds the head has been still (by the trail's speed), 0 while moving.
     still_for_s: f32,
     last_t_s: f64,
-    /// When the last move asked for should be done at the pace asked, s.
-    move_until_s: f64,
+    /// When the last move was asked for, s.
+    move_asked_s: f64,
     /// The person set off on the last move asked for.
     move_set_off: bool,
     /// How long the last move asked for takes at the pace asked, s.
@@ -320,7 +320,7 @@ impl<const N: usize> Locator<N> {
             lost_for_s: 0.0,
             still_for_s: 0.0,
             last_t_s: 0.0,
-            move_until_s: f64::NEG_INFINITY,
+            move_asked_s: f64::NEG_INFINITY,
             move_set_off: false,
             move_s: 0.0,
             last_fix: None,
@@ -364,7 +364,7 @@ impl<const N: usize> Locator<N> {
         self.last_fix = None;
         self.held_fix = None;
         self.last_depth_m = None;
-        self.move_until_s = f64::NEG_INFINITY;
+        self.move_asked_s = f64::NEG_INFINITY;
         self.depth_lag_m = f32::NAN;
     }
 
@@ -457,9 +457,9 @@ impl<const N: usize> Locator<N> {
         // sweeping, 0.24 m past the point.
         // Set off: the readouts still change two group delays after the ask (before that
         // they may carry the motion that brought the person there).
-        let asked_s = self.move_until_s - self.move_s as f64;
+        let asked_s = self.move_asked_s;
         self.move_set_off |= self.trail.last_change_s().is_some_and(|t| t as f64 > asked_s + 2.0 * timing.group_delay_s as f64);
-        let moving_as_asked = self.move_set_off && timing.t_s < self.move_until_s;
+        let moving_as_asked = self.move_set_off && timing.t_s < asked_s + self.move_s as f64;
         match place {
             Some(p) if steady && !moving_as_asked && p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
             _ => self.still_for_s = 0.0,
@@ -722,7 +722,7 @@ impl<const N: usize> Locator<N> {
         // Only a move across the axis is timed: along it the vertical field changes at first
         // order over the sonde, and steady readouts do mean the head has stopped.
         self.move_s = if across { libm::fabsf(dist) / crate::locate::trail::MOVE_PACE_M_S } else { 0.0 };
-        self.move_until_s = self.last_t_s + self.move_s as f64;
+        self.move_asked_s = self.last_t_s;
         self.move_set_off = false;
         let r = MoveRequest { id: self.move_id, ahead_m: if across { 0.0 } else { dist }, left_m: if across { dist } else { 0.0 } };
         self.request = Some(r);

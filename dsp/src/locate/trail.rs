@@ -655,8 +655,9 @@ impl<const N: usize> Trail<N> {
     /// station pooled over a stretch `L` reads the field averaged over it, off the field at
     /// its middle by about `B''·L²/24`, within the moving floor for `L ≤ 0.1·h`
     /// ([`TrailSettings::moving_floor`]). The newest [`KEEP_RECENT`] stations and those of a
-    /// move under way are left alone; so are stations either side of a turn, and a move of a
-    /// set distance is carried over whole to the link after. False: nothing to pool.
+    /// move under way are left alone; so are stations either side of a turn, and the link
+    /// between the two, a move of a set distance, goes half to each link either side. False:
+    /// nothing to pool.
     fn merge_closest(&mut self) -> bool {
         let Some(b) = self.best() else { return false };
         if self.last_t - self.st[0].t0 > MERGE_SPAN_S {
@@ -706,27 +707,28 @@ impl<const N: usize> Trail<N> {
         if i + 2 < self.len {
             self.st[i + 2].motion = with_half_of(self.st[i + 2].motion, c.motion);
         }
-        self.st.copy_within(i + 2..self.len, i + 1);
         for o in self.hyp.iter_mut() {
             let (p, q) = (o.loc[i], o.loc[i + 1]);
             o.loc[i] = [0.5 * (p[0] + q[0]), 0.5 * (p[1] + q[1]), wrap_pi(p[2] + 0.5 * wrap_pi(q[2] - p[2]))];
-            o.loc.copy_within(i + 2..self.len, i + 1);
         }
-        if let Some(p) = self.pending.as_mut() {
-            p.first = p.first.saturating_sub(1);
-        }
-        self.len -= 1;
+        self.remove(i + 1);
         self.cov = None;
         true
     }
 
     fn drop_oldest(&mut self) {
+        self.remove(0);
+    }
+
+    /// Take station `i` out of the window (every fit's place for it too), the later ones
+    /// moving down; `i` is below any move under way.
+    fn remove(&mut self, i: usize) {
         if let Some(p) = self.pending.as_mut() {
             p.first = p.first.saturating_sub(1);
         }
-        self.st.copy_within(1..STATIONS, 0);
+        self.st.copy_within(i + 1..self.len, i);
         for h in self.hyp.iter_mut() {
-            h.loc.copy_within(1..STATIONS, 0);
+            h.loc.copy_within(i + 1..self.len, i);
         }
         self.len -= 1;
     }
@@ -1461,7 +1463,7 @@ mod tests {
         let h = 1.5f32;
         let k = 1.0f32;
         let peak = k / (h * h * h);
-        let sigma = peak * crate::powf::powf(10.0, -snr_db / 20.0);
+        let sigma = peak * libm::powf(10.0, -snr_db / 20.0);
         let mut out = Vec::new();
         let mut none = 0;
         for (i, &(x, y, hd)) in path.iter().enumerate() {
