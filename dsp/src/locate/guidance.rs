@@ -7,7 +7,9 @@
 //! is within the over tolerance of it in both directions (the tolerance is
 //! `max(0.15 m, 0.1·depth)`, the precision a person digging can use; common
 //! practice, no published source), with the uncertainty of the estimate taken
-//! into account (the estimate ± 2σ lies inside the tolerance).
+//! into account (the estimate ± 2σ lies inside the tolerance, and the estimate
+//! itself within 0.6 of it for what the σ does not cover), with the head still
+//! and the signal good (the locator's `OVER_MARGIN` and `OVER_SETTLE_S`).
 
 use crate::locate::depth::Withheld;
 

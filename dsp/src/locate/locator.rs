@@ -459,7 +459,10 @@ impl<const N: usize> Locator<N> {
         // they may carry the motion that brought the person there).
         let asked_s = self.move_asked_s;
         self.move_set_off |= self.trail.last_change_s().is_some_and(|t| t as f64 > asked_s + 2.0 * timing.group_delay_s as f64);
-        let moving_as_asked = self.move_set_off && timing.t_s < asked_s + self.move_s as f64;
+        // And the readouts carry the move for a while after its end (the detector's delay),
+        // with nothing steady to tell: OVER_SETTLE_S more.
+        let settle = if self.move_s > 0.0 { OVER_SETTLE_S } else { 0.0 };
+        let moving_as_asked = self.move_set_off && timing.t_s < asked_s + (self.move_s + settle) as f64;
         match place {
             Some(p) if steady && !moving_as_asked && p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h_now => self.still_for_s += dt,
             _ => self.still_for_s = 0.0,
@@ -514,7 +517,7 @@ impl<const N: usize> Locator<N> {
             // sonde drift apart in phase by about (r/δ)² rad (field::ground), which the trail's
             // in-phase model does not follow: a field out of phase there gives no direction.
             let ground = s.skin_depth_m.is_finite() && field.quadrature > s.quadrature_limit;
-            self.directions(place.as_ref(), h_hint, clipped, distorted || ground, out_of_line)
+            self.directions(place.as_ref(), h_hint, clipped, distorted || ground, out_of_line, signal == Signal::Weak)
         };
         self.over_held = guidance.over();
         guidance.vertical_ratio = field.vertical_ratio();
@@ -733,7 +736,15 @@ impl<const N: usize> Locator<N> {
     }
 
     /// Step 6: the directions and the hint.
-    fn directions(&self, place: Option<&Place>, h_hint: Option<f32>, clipped: bool, distorted: bool, out_of_line: bool) -> Guidance {
+    fn directions(
+        &self,
+        place: Option<&Place>,
+        h_hint: Option<f32>,
+        clipped: bool,
+        distorted: bool,
+        out_of_line: bool,
+        weak: bool,
+    ) -> Guidance {
         let Some(p) = place else {
             // Nothing fitted yet: line up with the field, then walk so the field changes.
             let hint = if out_of_line || self.state == Orientation::Crossed { Hint::TurnInLine } else { Hint::WalkAlong };
@@ -777,16 +788,31 @@ impl<const N: usize> Locator<N> {
         let still = p.speed_m_s < MAX_OVER_SPEED_DEPTHS_PER_S * h && self.still_for_s > 0.0;
         let (a, sa) = (p.ahead_m.value, p.ahead_m.sigma);
         let (l, sl) = (p.left_m.value, p.left_m.sigma);
+        // A fit whose depth's σ is as large as the depth does not know the geometry its
+        // offsets stand on (their σ are those of a linearisation far from the answer): 5 m
+        // beside the camera scenario's sonde at 17 dB a fit with its depth at 0.9 ± 1.4 m put
+        // the sonde 6.1 ± 0.2 m to the left; it was 5.2 m to the right. (Half the depth
+        // withheld good directions 12 m from the 4 m sonde, where the depth is 2 ± 1 m.)
+        if !(p.depth_m.sigma < p.depth_m.value) {
+            g.ahead = None;
+            g.left = None;
+            g.why = Some(Withheld::Uncertain);
+            return g;
+        }
         // Over is claimed at two σ and, for a head still since, kept at HOLD_SIGMAS: the
         // head has not moved, only the estimate's noise has (else "over" flickers under a
         // person holding still, and they are sent off again).
-        let k = if self.over_held && still { HOLD_SIGMAS } else { 2.0 };
-        let within_a = libm::fabsf(a) + k * sa <= tol;
+        let held = self.over_held && still;
+        let k = if held { HOLD_SIGMAS } else { 2.0 };
+        // Claimed, the point must also lie within OVER_MARGIN of the tolerance whatever the
+        // σ, which covers the noise and not what the fit does not model (see OVER_MARGIN).
+        let reach = if held { tol } else { OVER_MARGIN * tol };
+        let within_a = libm::fabsf(a) + k * sa <= tol && libm::fabsf(a) <= reach;
         // Over is claimed on the distance from the point, both directions together.
-        let within_l = libm::fabsf(l) + k * sl <= tol && libm::hypotf(a, l) + k * sa.max(sl) <= tol;
+        let within_l = libm::fabsf(l) + k * sl <= tol && libm::fabsf(l) <= reach && libm::hypotf(a, l) + k * sa.max(sl) <= tol;
         g.along = if p.ambiguous_ahead || !sa.is_finite() {
             Along::Unsure
-        } else if within_a && still {
+        } else if within_a && still && !weak {
             Along::Over
         } else if within_a {
             Along::Unsure
@@ -877,6 +903,8 @@ impl<const N: usize> Locator<N> {
             g.why = Some(if g.along == Along::Unsure {
                 if p.ambiguous_ahead {
                     Withheld::Ambiguous
+                } else if within_a && weak {
+                    Withheld::LowSnr
                 } else if within_a {
                     Withheld::Moving
                 } else {
@@ -1061,6 +1089,19 @@ pub const MAX_AXIS_ANGLE_RAD: f32 = 0.698;
 pub const TURN_BEARING_RAD: f32 = 0.262;
 /// Fastest motion of the head at which "over" is shown, depths per second (0.1: 0.15 m/s at 1.5 m).
 pub const MAX_OVER_SPEED_DEPTHS_PER_S: f32 = 0.1;
+/// "Over" is claimed only where the point over the sonde is also within this fraction of the
+/// tolerance along and across, however small the σ: the σ covers the noise, not what the fit
+/// does not model (the lower coils' gains within their stated tolerance, the head's build).
+/// At 2σ alone, people beside the shallow scenario's sonde (0.3 m, pitched 15°, its lower
+/// coils 1 % apart) were told "over" at 0.151 and 0.161 m from the point against 0.15 m, the
+/// fit putting them 0.13 ± 0.01 m off.
+pub const OVER_MARGIN: f32 = 0.6;
+/// After a move across the axis, the head is taken to be still moving this much longer than
+/// the move takes at the pace asked, s: the readouts still carry the move (the detector's
+/// delay), and across the top of a level sonde the field changes too little to tell. At the
+/// end of a sweep across the camera scenario's sonde "over" was claimed the instant the head
+/// stopped, 0.15 m to its side, and withdrawn 0.3 s later.
+pub const OVER_SETTLE_S: f32 = 0.5;
 /// A trail fit that has not explained the readings this long is dropped, s.
 pub const LOST_S: f32 = 2.0;
 /// Stations a fit needs before its directions are acted on.
