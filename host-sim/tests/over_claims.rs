@@ -8,30 +8,26 @@ use std::path::Path;
 use undertone_sim::locate::trace;
 use undertone_sim::scenario::Scenario;
 
-fn over_too_far(file: &str, start: usize) -> (usize, usize) {
+/// Each start of `file` (seed 7) shows "over" at least once and never beyond the tolerance.
+fn assert_over_never_too_far(file: &str, starts: [usize; 2]) {
     let sc = Scenario::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join(file)).unwrap();
-    let r = trace(&sc, start, 7, &mut std::io::sink()).unwrap();
-    (r.over_too_far, r.over_shown)
+    for start in starts {
+        let r = trace(&sc, start, 7, &mut std::io::sink()).unwrap();
+        assert_eq!(r.over_too_far, 0, "start {start}: over shown {} times beyond the tolerance", r.over_too_far);
+        assert!(r.over_shown > 0, "start {start}: over never shown");
+    }
 }
 
 #[test]
 fn beside_the_shallow_sonde_over_keeps_a_margin_for_what_the_fit_does_not_model() {
     // Stopped 0.161 m and 0.151 m from the point (0.15 m allowed), the fit putting the head
     // 0.13 ± 0.01 m and 0.10 ± 0.01 m off: 22 readouts of "over" each.
-    for start in [10, 126] {
-        let (far, shown) = over_too_far("scenarios/shallow-four-coil-60hz.toml", start);
-        assert_eq!(far, 0, "start {start}: over shown {far} times beyond the tolerance");
-        assert!(shown > 0, "start {start}: over never shown");
-    }
+    assert_over_never_too_far("scenarios/shallow-four-coil-60hz.toml", [10, 126]);
 }
 
 #[test]
 fn over_a_moving_sonde_over_waits_for_the_sweep_to_end_and_a_good_signal() {
     // Start 50: "over" the instant a sweep across ended, 0.15 m to the side (6 readouts).
     // Start 122: "over" at 18 dB, 5.2 m from the point, from a fit whose depth was 27 ± 6 m.
-    for start in [50, 122] {
-        let (far, shown) = over_too_far("examples/camera-head-clay.toml", start);
-        assert_eq!(far, 0, "start {start}: over shown {far} times beyond the tolerance");
-        assert!(shown > 0, "start {start}: over never shown");
-    }
+    assert_over_never_too_far("examples/camera-head-clay.toml", [50, 122]);
 }
