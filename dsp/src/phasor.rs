@@ -23,7 +23,7 @@ pub trait Phasor {
 impl Phasor for C32 {
     #[inline]
     fn magnitude(self) -> f32 {
-        libm::hypotf(self.re, self.im)
+        crate::powf::hypotf(self.re, self.im)
     }
 
     #[inline]

@@ -77,7 +77,7 @@ impl Window {
             }
         }
         // The magnitude in f32 (relative 6e-8; an f64 `sqrt` would add 0.5 KiB to the board image).
-        let mag = libm::hypotf(acc.0 as f32, acc.1 as f32) as f64;
+        let mag = crate::powf::hypotf(acc.0 as f32, acc.1 as f32) as f64;
         mag / (a[0] as f64 * l)
     }
 

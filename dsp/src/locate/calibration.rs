@@ -134,6 +134,6 @@ mod tests {
         // 3·0.4/(2·2.4) = 0.25 per metre: 0.25 % for 1 cm.
         assert!((s - 0.0025).abs() < 1e-5, "{s}");
         let s2 = upper_gain_sigma(FieldModel::Dipole, &noisy, 0.0);
-        assert!((s2 - libm::hypotf(1e-3, 1e-3 / 0.6)).abs() < 1e-7, "{s2}");
+        assert!((s2 - crate::powf::hypotf(1e-3, 1e-3 / 0.6)).abs() < 1e-7, "{s2}");
     }
 }

@@ -76,8 +76,8 @@ impl<const N: usize> FieldVector<N> {
                 upper[k] = -upper[k];
             }
         }
-        let horizontal = libm::hypotf(lower[0], lower[1]);
-        let total = libm::hypotf(horizontal, lower[2]);
+        let horizontal = crate::powf::hypotf(lower[0], lower[1]);
+        let total = crate::powf::hypotf(horizontal, lower[2]);
         let bearing_rad = if horizontal > 0.0 { libm::atan2f(lower[1], lower[0]) } else { 0.0 };
         let quadrature = if tot > 0.0 && tot.is_finite() { libm::sqrtf(qq / tot) } else { 0.0 };
         Self { signed, sigma, quadrature, lower, upper, horizontal, total, bearing_rad }

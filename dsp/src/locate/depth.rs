@@ -309,8 +309,8 @@ pub fn null_span_depth(fore_m: f32, aft_m: f32, sigma_m: f32) -> NullSpanFix {
     let d = 1e-3 * (fore_m + aft_m);
     let (hf, af) = solve_null_span(fore_m + d, aft_m).unwrap_or((h, a));
     let (hb, ab) = solve_null_span(fore_m, aft_m + d).unwrap_or((h, a));
-    let sh = sigma_m * libm::hypotf((hf - h) / d, (hb - h) / d);
-    let sa = sigma_m * libm::hypotf((af - a) / d, (ab - a) / d);
+    let sh = sigma_m * crate::powf::hypotf((hf - h) / d, (hb - h) / d);
+    let sa = sigma_m * crate::powf::hypotf((af - a) / d, (ab - a) / d);
     NullSpanFix { depth: depth(h, sh), pitch_rad: a, pitch_sigma_rad: sa }
 }
 

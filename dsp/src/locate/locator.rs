@@ -808,11 +808,15 @@ impl<const N: usize> Locator<N> {
         // σ, which covers the noise and not what the fit does not model (see OVER_MARGIN).
         let reach = if held { tol } else { OVER_MARGIN * tol };
         let within_a = libm::fabsf(a) + k * sa <= tol && libm::fabsf(a) <= reach;
+        // "Over" is claimed against a tolerance of a tenth of the depth: only from a fit that
+        // knows its depth well within that. 3.5 m and 3.9 m beside the camera scenario's
+        // sonde, fits at 24 ± 3.6 m and 28 ± 2.8 m (truly 1.3 m) had claimed it.
+        let vague = !(p.depth_m.sigma < OVER_DEPTH_REL * p.depth_m.value);
         // Over is claimed on the distance from the point, both directions together.
-        let within_l = libm::fabsf(l) + k * sl <= tol && libm::fabsf(l) <= reach && libm::hypotf(a, l) + k * sa.max(sl) <= tol;
+        let within_l = libm::fabsf(l) + k * sl <= tol && libm::fabsf(l) <= reach && crate::powf::hypotf(a, l) + k * sa.max(sl) <= tol;
         g.along = if p.ambiguous_ahead || !sa.is_finite() {
             Along::Unsure
-        } else if within_a && still && !weak {
+        } else if within_a && still && !weak && !vague {
             Along::Over
         } else if within_a {
             Along::Unsure
@@ -855,12 +859,12 @@ impl<const N: usize> Locator<N> {
         // when the bearing shown agrees: a person turns until the bearing reads in line, and
         // beside a pitched sonde the field can read in line with the handle 30° off its axis
         // (asked to turn with nothing to turn by, they would stand there for good).
-        let near = libm::hypotf(a, l) < (0.7 * h).max(0.5);
+        let near = crate::powf::hypotf(a, l) < (0.7 * h).max(0.5);
         let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3;
         let along_known = g.along == Along::Ahead || g.along == Along::Behind;
         let walk = if a > 0.0 { Hint::WalkAhead } else { Hint::WalkBack };
         let step = if l > 0.0 { Hint::StepLeft } else { Hint::StepRight };
-        let far = libm::hypotf(a, l) > (1.5 * h).max(1.0);
+        let far = crate::powf::hypotf(a, l) > (1.5 * h).max(1.0);
         g.hint = if !established {
             if out_of_line {
                 Hint::TurnInLine
@@ -905,6 +909,8 @@ impl<const N: usize> Locator<N> {
                     Withheld::Ambiguous
                 } else if within_a && weak {
                     Withheld::LowSnr
+                } else if within_a && vague {
+                    Withheld::Uncertain
                 } else if within_a {
                     Withheld::Moving
                 } else {
@@ -958,9 +964,9 @@ impl<const N: usize> Locator<N> {
         let (a, l) = (p.ahead_m.value, p.left_m.value);
         Ok(Offsets {
             u: (-a * cy - l * sy) / h,
-            sigma_u: libm::hypotf(p.ahead_m.sigma * cy, p.left_m.sigma * sy) / h,
+            sigma_u: crate::powf::hypotf(p.ahead_m.sigma * cy, p.left_m.sigma * sy) / h,
             eta: (a * sy - l * cy) / h,
-            sigma_eta: libm::hypotf(p.ahead_m.sigma * sy, p.left_m.sigma * cy) / h,
+            sigma_eta: crate::powf::hypotf(p.ahead_m.sigma * sy, p.left_m.sigma * cy) / h,
         })
     }
 
@@ -971,13 +977,13 @@ impl<const N: usize> Locator<N> {
             return Err(Withheld::IllConditioned);
         }
         let h = p.depth_m.value;
-        let sigma = libm::hypotf(p.depth_m.sigma, MODEL_FLOOR * h);
+        let sigma = crate::powf::hypotf(p.depth_m.sigma, MODEL_FLOOR * h);
         // Still drifting (the newest readings pull it further than its σ): not yet.
         let drift = libm::fabsf(h - self.depth_lag_m);
         if !(drift <= sigma) {
             return Err(Withheld::Settling);
         }
-        let d = crate::locate::depth::depth(h, libm::hypotf(sigma, drift))?;
+        let d = crate::locate::depth::depth(h, crate::powf::hypotf(sigma, drift))?;
         self.precise(d)
     }
 
@@ -992,7 +998,7 @@ impl<const N: usize> Locator<N> {
         // sonde R = ((h+s)/h)³, so σ_h/h = σ_lnR·(h+s)/(3s). Far off, the ratio is near 1
         // and its noise alone made depths of tens of metres.
         let rel = |i: u8, v: f32| field.sigma[i as usize] / libm::fabsf(v).max(1e-30);
-        let s_ln_r = libm::hypotf(rel(lo, field.lower[0]), rel(up, field.upper[0]));
+        let s_ln_r = crate::powf::hypotf(rel(lo, field.lower[0]), rel(up, field.upper[0]));
         (s_ln_r * (h + sp) / (3.0 * sp) < 0.3).then_some(h)
     }
 
@@ -1027,7 +1033,7 @@ impl<const N: usize> Locator<N> {
         let s = &self.settings;
         let c = &s.calibration;
         // The coils' gain tolerance enters the strength as well.
-        let sb = libm::hypotf(sigma, s.gain_tolerance * field.total);
+        let sb = crate::powf::hypotf(sigma, s.gain_tolerance * field.total);
         let d = known_moment_depth(s.model, field.total, sb, c.strength, c.strength_sigma, at)?;
         self.precise(d)
     }
@@ -1060,7 +1066,7 @@ impl<const N: usize> Locator<N> {
             return Err(Withheld::IllConditioned);
         }
         // Beyond the nulls the fit can land on the wrong side; require the sonde within them.
-        let r = libm::hypotf(f.ahead_m.value, f.left_m.value);
+        let r = crate::powf::hypotf(f.ahead_m.value, f.left_m.value);
         if r > 0.7 * h {
             return Err(Withheld::NotOver);
         }
@@ -1068,7 +1074,7 @@ impl<const N: usize> Locator<N> {
         // σ_h/h = (h+s)/(3s)·√2·tol (two triads, each ±tol).
         let sp = self.head.spacing_m().unwrap_or(0.4).max(1e-3);
         let gain = h * (h + sp) / (3.0 * sp) * core::f32::consts::SQRT_2 * self.settings.gain_tolerance;
-        let d = crate::locate::depth::depth(h, libm::hypotf(f.depth_m.sigma, gain))?;
+        let d = crate::locate::depth::depth(h, crate::powf::hypotf(f.depth_m.sigma, gain))?;
         self.precise(d)
     }
 
@@ -1104,6 +1110,8 @@ pub const OVER_MARGIN: f32 = 0.6;
 pub const OVER_SETTLE_S: f32 = 0.5;
 /// A trail fit that has not explained the readings this long is dropped, s.
 pub const LOST_S: f32 = 2.0;
+/// "Over" only from a fit whose depth's σ is below this share of the depth.
+pub const OVER_DEPTH_REL: f32 = 0.05;
 /// Stations a fit needs before its directions are acted on.
 pub const MIN_STATIONS: u8 = 8;
 /// Near the sonde the handle is turned in line with its axis when they are further apart than this, rad (30°).

@@ -34,6 +34,14 @@
 //! [`TrailSettings::drift_sigma_m`]. The turn has
 //! [`TrailSettings::heading_sigma_rad`], and is free while a turn is asked for. The pitch has a weak prior
 //! ([`TrailSettings::pitch_prior_rad`]) and `g` a prior of the gain tolerance.
+//! A move of a set distance, once the head stops after it, ties its stations by that
+//! distance; if the best fit then no longer explains the readings (the person went on, or
+//! came back), the tie is undone and the links keep the prior of the way asked.
+//!
+//! # Answers
+//! The sonde's place in the last station's frame with the Cramér–Rao σ below, the lateral
+//! σ at least [`LATERAL_FLOOR`] of the distance along (what the model leaves out shows
+//! across when the sonde is far ahead or behind).
 //!
 //! # Fit
 //! Maximum likelihood over the window (at most [`STATIONS`]) by
@@ -451,6 +459,9 @@ impl<const N: usize> Trail<N> {
         // A move of a set distance: wait for the head to stop after it, then tie the
         // station there to the one before by the distance asked for.
         let mut forced: Option<Motion> = None;
+        // A move of a set distance tied in now: its first station and the motion its links
+        // had before.
+        let mut tied: Option<(usize, Motion)> = None;
         match (rd.request, self.pending) {
             (Some(req), p) if p.map(|p| p.req.id != req.id).unwrap_or(true) && self.len > 0 => {
                 // Readouts during the move make stations of their own (they keep the
@@ -483,7 +494,7 @@ impl<const N: usize> Trail<N> {
                     p.steady_since = Some(rd.t_s);
                     p.last = rd.signed.map(|v| sg * v);
                 }
-                let dist = libm::hypotf(p.req.ahead_m, p.req.left_m);
+                let dist = crate::powf::hypotf(p.req.ahead_m, p.req.left_m);
                 let least = dist / MOVE_PACE_M_S;
                 let settle = STEADY_S.max(2.0 * rd.group_delay_s);
                 // The clock of the move runs from when the head set off; one that never
@@ -520,6 +531,7 @@ impl<const N: usize> Trail<N> {
                                 sigma_left_m: if along { sd } else { sm }.max(1e-3),
                             }
                         };
+                        tied = Some((p.first, if along { Motion::Along } else { Motion::Side }));
                         let mut prev = 0.0;
                         for k in p.first..self.len {
                             let f = frac_at(self.st[k].t_mid());
@@ -584,7 +596,26 @@ impl<const N: usize> Trail<N> {
         if new_station {
             self.reseed();
         }
-        self.place(rd.t_s, rd.group_delay_s)
+        let place = self.place(rd.t_s, rd.group_delay_s);
+        // A person who went on, or came back, after the move asked for was not where the
+        // distance puts them: if the fit no longer explains the readings with the distance
+        // tied in, the move's links go back to what was asked on the way.
+        match (tied, place) {
+            (Some((first, plain)), Some(p)) if !p.consistent => {
+                for st in self.st.iter_mut().take(self.len).skip(first) {
+                    if matches!(st.motion, Motion::Moved { .. }) {
+                        st.motion = plain;
+                    }
+                }
+                for k in 0..HYPOTHESES {
+                    if self.hyp[k].live {
+                        self.iterate(k, ITERATIONS);
+                    }
+                }
+                self.place(rd.t_s, rd.group_delay_s)
+            }
+            _ => place,
+        }
     }
 
     /// Pool the readout into the last station or start a new one; true when new.
@@ -682,7 +713,7 @@ impl<const N: usize> Trail<N> {
             }
             let (p, q) = (h.loc[i], h.loc[i + 1]);
             let dpsi = libm::fabsf(wrap_pi(p[2] - q[2]));
-            let sep = libm::hypotf(p[0] - q[0], p[1] - q[1]) + a.span_m + c.span_m;
+            let sep = crate::powf::hypotf(p[0] - q[0], p[1] - q[1]) + a.span_m + c.span_m;
             if dpsi < MERGE_TURN_RAD && sep < MERGE_DEPTHS * depth && pick.is_none_or(|(_, d)| sep < d) {
                 pick = Some((i, sep));
             }
@@ -1287,13 +1318,18 @@ impl<const N: usize> Trail<N> {
             let d = wrap_pi(h.loc[i][2] - l[2]);
             let (sn, cs) = (libm::sinf(d), libm::cosf(d));
             let (x, y) = (cs * h.loc[i][0] - sn * h.loc[i][1], sn * h.loc[i][0] + cs * h.loc[i][1]);
-            span = span.max(libm::hypotf(x - l[0], y - l[1]));
+            span = span.max(crate::powf::hypotf(x - l[0], y - l[1]));
         }
         let lag = (t_s - self.st[last].t_mid() + group_delay_s).clamp(0.0, 1.0);
         let (ax, ay) = (l[0] - vx * lag, l[1] - vy * lag);
         let carry = 0.3 * speed * lag;
-        let ahead_m = Estimate { value: ax, sigma: libm::hypotf(sd(cov_last[0][0]), carry) };
-        let left_m = Estimate { value: ay, sigma: libm::hypotf(sd(cov_last[1][1]), carry) };
+        // Far along, what the trail does not model (a heading held to within its prior, a
+        // moving head) shows across: the lateral σ is at least LATERAL_FLOOR of the distance
+        // along. 2–3 m along the axis of a sonde 1.3 m down, a fit put it 0.2–1.0 m to the
+        // right with σ 0.1–0.4 m when it was 0.05 m to the left.
+        let lat = LATERAL_FLOOR * ax;
+        let ahead_m = Estimate { value: ax, sigma: libm::sqrtf(cov_last[0][0].max(0.0) + carry * carry) };
+        let left_m = Estimate { value: ay, sigma: libm::sqrtf(cov_last[1][1].max(0.0) + carry * carry + lat * lat) };
         // Alternatives that explain the readings as well and put the sonde elsewhere.
         let tol = crate::locate::guidance::over_tolerance_m(h.glob[IH]);
         let (mut amb_a, mut amb_l, mut runner) = (false, false, f32::INFINITY);
@@ -1338,6 +1374,9 @@ impl<const N: usize> Trail<N> {
         })
     }
 }
+
+/// Floor of the lateral offset's σ, relative to the distance along (rad): see `place`.
+pub const LATERAL_FLOOR: f32 = 0.2;
 
 /// χ² beyond its degrees of freedom by this many of its standard deviations
 /// (√(2·dof)) marks the fit as not explaining the readings.
