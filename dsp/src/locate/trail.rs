@@ -1322,10 +1322,7 @@ impl<const N: usize> Trail<N> {
         }
         let lag = (t_s - self.st[last].t_mid() + group_delay_s).clamp(0.0, 1.0);
         let (ax, ay) = (l[0] - vx * lag, l[1] - vy * lag);
-        // Carried over the lag at the speed of the last stations, with 0.6 of the carry as its
-        // σ (0.3 left the place shown 0.09–0.17 m the wrong way, 2–3σ, as the head walked over
-        // the point on the demo's and our own walks along the axis: 15 readouts, now 0).
-        let carry = 0.6 * speed * lag;
+        let carry = 0.3 * speed * lag;
         // Far along, what the trail does not model (a heading held to within its prior, a
         // moving head) shows across: the lateral σ is at least LATERAL_FLOOR of the distance
         // along. 2–3 m along the axis of a sonde 1.3 m down, a fit put it 0.2–1.0 m to the
