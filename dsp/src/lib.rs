@@ -39,6 +39,7 @@ pub mod locate;
 pub mod phasor;
 pub mod powf;
 pub mod receiver;
+pub mod trigf;
 
 pub use detect::settings::{Beacon, DetectorKind, DetectorSettings};
 pub use detect::window::Window;

@@ -35,5 +35,6 @@ impl Phasor for C32 {
 /// Unit phasor `e^{jθ}` for θ in radians.
 #[inline]
 pub fn unit(theta_rad: f32) -> C32 {
-    C32::new(libm::cosf(theta_rad), libm::sinf(theta_rad))
+    let (s, c) = crate::trigf::sin_cos(theta_rad);
+    C32::new(c, s)
 }

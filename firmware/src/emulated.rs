@@ -115,7 +115,7 @@ impl<const N: usize> SampleSource<N> for Synthetic<N> {
             }
         }
         self.n = self.n.wrapping_add(1);
-        let s = libm::sinf(self.phase as f32 * (core::f32::consts::TAU / 4_294_967_296.0));
+        let s = undertone_dsp::trigf::sinf(self.phase as f32 * (core::f32::consts::TAU / 4_294_967_296.0));
         self.phase = self.phase.wrapping_add(self.step);
         let mut out = [0i32; N];
         for c in 0..N {

@@ -70,5 +70,6 @@ pub fn reference_at(step: u32, n: u64) -> C32 {
     // Map to (−π, π] so the f32 argument keeps full relative precision.
     let turns = phase as i32 as f32 * (1.0 / 4_294_967_296.0);
     let ph = -core::f32::consts::TAU * turns;
-    C32::new(libm::cosf(ph), libm::sinf(ph))
+    let (s, c) = crate::trigf::sin_cos(ph);
+    C32::new(c, s)
 }

@@ -40,7 +40,7 @@ impl Window {
             return 1.0;
         }
         let theta = 2.0 * core::f32::consts::PI * (n as f32) / (len.max(1) as f32);
-        let c1 = libm::cosf(theta);
+        let c1 = crate::trigf::cosf(theta);
         let c2 = 2.0 * c1 * c1 - 1.0;
         let c3 = 2.0 * c1 * c2 - c1;
         a[0] - a[1] * c1 + a[2] * c2 - a[3] * c3

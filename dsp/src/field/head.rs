@@ -140,7 +140,7 @@ impl<const N: usize> Head<N> {
 
     /// Noise-free coil readings for a source, receiver at `origin_m` turned by `heading_rad` about z.
     pub fn readings(&self, source: &Source, origin_m: V3, heading_rad: f32) -> [f32; N] {
-        let (s, c) = (libm::sinf(heading_rad), libm::cosf(heading_rad));
+        let (s, c) = crate::trigf::sin_cos(heading_rad);
         let rot = |v: V3| [c * v[0] - s * v[1], s * v[0] + c * v[1], v[2]];
         let mut out = [0.0; N];
         for (i, coil) in self.coils.iter().enumerate() {

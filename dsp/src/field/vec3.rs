@@ -38,7 +38,7 @@ pub fn unit(a: V3) -> V3 {
 }
 /// Unit vector of an axis with yaw ψ (from x towards y) and pitch α (up from horizontal), radians.
 pub fn from_yaw_pitch(yaw_rad: f32, pitch_rad: f32) -> V3 {
-    let (sy, cy) = (libm::sinf(yaw_rad), libm::cosf(yaw_rad));
-    let (sp, cp) = (libm::sinf(pitch_rad), libm::cosf(pitch_rad));
+    let (sy, cy) = crate::trigf::sin_cos(yaw_rad);
+    let (sp, cp) = crate::trigf::sin_cos(pitch_rad);
     [cp * cy, cp * sy, sp]
 }

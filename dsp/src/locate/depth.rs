@@ -279,7 +279,7 @@ pub struct NullSpanFix {
 /// of the numerator, the main peak the root of `6c·x³ + 12s·x² − 9c·x − 3s = 0`
 /// (the derivative) near `x = −tan α/3` (c = cos α, s = sin α).
 pub fn pitched_null_distances(alpha_rad: f32) -> (f32, f32) {
-    let (s, c) = (libm::sinf(alpha_rad), libm::cosf(alpha_rad));
+    let (s, c) = crate::trigf::sin_cos(alpha_rad);
     let disc = libm::sqrtf(9.0 * s * s + 8.0 * c * c);
     let fore_null = (-3.0 * s + disc) / (4.0 * c);
     let aft_null = (-3.0 * s - disc) / (4.0 * c);

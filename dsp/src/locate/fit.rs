@@ -111,8 +111,8 @@ pub fn model_jacobian<const N: usize>(head: &Head<N>, th: &[F; P]) -> ([F; N], [
 /// `∂T/∂r = (m·u + q·n)/d⁵ − 5qm·r/d⁷ + 3w·r/d⁵`, and the factors add
 /// `(A_r'·R + A_t'·T)·r/d`.
 pub fn model_jacobian_in<const N: usize>(head: &Head<N>, th: &[F; P], skin_depth_m: F) -> ([F; N], [[F; P]; N]) {
-    let (sy, cy) = (libm::sinf(th[3]), libm::cosf(th[3]));
-    let (sp, cp) = (libm::sinf(th[4]), libm::cosf(th[4]));
+    let (sy, cy) = crate::trigf::sin_cos(th[3]);
+    let (sp, cp) = crate::trigf::sin_cos(th[4]);
     let u = [cp * cy, cp * sy, sp];
     let du_dpsi = [-cp * sy, cp * cy, 0.0];
     let du_dalpha = [-sp * cy, -sp * sy, cp];
@@ -220,7 +220,7 @@ pub fn fit_from<const N: usize>(
         // Offsets along the bearing: the ratio's estimate, none, its mirror, half the depth either way.
         let dx = if kx.abs() == 1.0 { kx * ahead } else { kx * h0 };
         let dyaw = flip * core::f32::consts::PI;
-        let mut th = [dx * libm::cosf(yaw0), dx * libm::sinf(yaw0), h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
+        let mut th = [dx * crate::trigf::cosf(yaw0), dx * crate::trigf::sinf(yaw0), h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
         if let Some(k) = known_k {
             th[5] = if th[5] < 0.0 { -(k as F).abs() } else { (k as F).abs() };
         }

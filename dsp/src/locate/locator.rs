@@ -506,10 +506,10 @@ impl<const N: usize> Locator<N> {
             // of stations may later shrink to the last metre of small moves; the fit keeps
             // what the long baseline settled (its σ say what the window still supports).
             match place {
-                Some(p) if p.stations < MIN_STATIONS => self.established = false,
+                Some(p) if p.stations < min_stations(N) => self.established = false,
                 Some(p) => {
                     let h = h_hint.unwrap_or(p.depth_m.value).max(0.05);
-                    self.established |= p.span_m >= (0.3 * h).max(0.5);
+                    self.established |= p.span_m >= (min_span(N) * h).max(0.35);
                 }
                 None => {}
             }
@@ -727,7 +727,13 @@ impl<const N: usize> Locator<N> {
         self.move_s = if across { libm::fabsf(dist) / crate::locate::trail::MOVE_PACE_M_S } else { 0.0 };
         self.move_asked_s = self.last_t_s;
         self.move_set_off = false;
-        let r = MoveRequest { id: self.move_id, ahead_m: if across { 0.0 } else { dist }, left_m: if across { dist } else { 0.0 } };
+        let r = MoveRequest {
+            id: self.move_id,
+            ahead_m: if across { 0.0 } else { dist },
+            left_m: if across { dist } else { 0.0 },
+            from_still: self.still_for_s > 0.0,
+            own_pace: hint == Hint::WalkAlong,
+        };
         self.request = Some(r);
         self.request_hint = hint;
         g.hint = hint;
@@ -860,7 +866,7 @@ impl<const N: usize> Locator<N> {
         // beside a pitched sonde the field can read in line with the handle 30° off its axis
         // (asked to turn with nothing to turn by, they would stand there for good).
         let near = crate::powf::hypotf(a, l) < (0.7 * h).max(0.5);
-        let crossed = libm::fabsf(libm::sinf(p.yaw_rad.value)) > libm::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3;
+        let crossed = libm::fabsf(crate::trigf::sinf(p.yaw_rad.value)) > crate::trigf::sinf(NEAR_TURN_RAD) && p.yaw_rad.sigma < 0.3;
         let along_known = g.along == Along::Ahead || g.along == Along::Behind;
         let walk = if a > 0.0 { Hint::WalkAhead } else { Hint::WalkBack };
         let step = if l > 0.0 { Hint::StepLeft } else { Hint::StepRight };
@@ -960,7 +966,7 @@ impl<const N: usize> Locator<N> {
 
         let h = p.depth_m.value.max(0.05);
         // The receiver relative to the sonde (−ahead, −left), on the sonde axis (yaw ψ from the handle).
-        let (sy, cy) = (libm::sinf(p.yaw_rad.value), libm::cosf(p.yaw_rad.value));
+        let (sy, cy) = crate::trigf::sin_cos(p.yaw_rad.value);
         let (a, l) = (p.ahead_m.value, p.left_m.value);
         Ok(Offsets {
             u: (-a * cy - l * sy) / h,
@@ -1114,6 +1120,27 @@ pub const LOST_S: f32 = 2.0;
 pub const OVER_DEPTH_REL: f32 = 0.05;
 /// Stations a fit needs before its directions are acted on.
 pub const MIN_STATIONS: u8 = 8;
+/// Stations a fit of a head of two triads needs before its directions are acted on: each
+/// station brings six readings against its three unknowns (a four-coil head's bring four).
+pub const MIN_STATIONS_TRIADS: u8 = 5;
+
+/// The trail's span, in depths, before its directions are acted on, for a head of `n` coils.
+const fn min_span(n: usize) -> f32 {
+    if n >= 6 {
+        0.2
+    } else {
+        0.3
+    }
+}
+
+/// Stations a fit needs before its directions are acted on, for a head of `n` coils.
+const fn min_stations(n: usize) -> u8 {
+    if n >= 6 {
+        MIN_STATIONS_TRIADS
+    } else {
+        MIN_STATIONS
+    }
+}
 /// Near the sonde the handle is turned in line with its axis when they are further apart than this, rad (30°).
 pub const NEAR_TURN_RAD: f32 = 0.524;
 /// Within this distance (or half a depth) of the point over the sonde, walks are moves of a set distance, m.

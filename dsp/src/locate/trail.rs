@@ -37,6 +37,13 @@
 //! A move of a set distance, once the head stops after it, ties its stations by that
 //! distance; if the best fit then no longer explains the readings (the person went on, or
 //! came back), the tie is undone and the links keep the prior of the way asked.
+//! While such a move is under way and the head stood when it was asked for, each new
+//! station's link also carries the way asked: mean `v·Δt` (the pace asked,
+//! [`MOVE_PACE_M_S`], times the time since the station before) signed by the ask, σ as
+//! large as the mean (twice, for a walk at the person's own pace) plus 0.02 m.
+//! The field decides the distance; the ask decides the sign, which the field cannot
+//! across the top of a level sonde (the field there is the same either side). If the fit
+//! stops explaining the readings during the move, those links lose the way asked.
 //!
 //! # Answers
 //! The sonde's place in the last station's frame with the Cramér–Rao σ below, the lateral
@@ -130,6 +137,11 @@ pub struct MoveRequest {
     pub ahead_m: f32,
     /// Distance to the left (negative: right), m.
     pub left_m: f32,
+    /// The head stood when the move was asked for (a person setting off on it follows the
+    /// ask; one already on the move may carry on with their own walk).
+    pub from_still: bool,
+    /// A walk to explore, at the person's own pace rather than the one asked.
+    pub own_pace: bool,
 }
 
 /// A move being made.
@@ -145,6 +157,10 @@ struct Pending<const N: usize> {
     moved_at: Option<f32>,
     steady_since: Option<f32>,
     last: [f32; N],
+    /// The head stood when the move was asked for and the links carry the way asked; false
+    /// for a head already on the move (a person carrying on with their own walk), or once
+    /// the fit shows the person went another way.
+    follows: bool,
 }
 
 /// Settings of the trail.
@@ -284,6 +300,12 @@ struct Station<const N: usize> {
     /// Length of path pooled into the station, as the fit put it when pooling, m (0 for
     /// one place).
     span_m: f32,
+    /// The head's move from the station before the way it was asked to go (ahead for
+    /// [`Motion::Along`], to the left for [`Motion::Side`]) at the pace asked, m; 0 when no
+    /// move of a set distance was under way.
+    going_m: f32,
+    /// σ of that move, m: as large as the move (twice, for a walk at the person's own pace).
+    going_sigma_m: f32,
 }
 
 impl<const N: usize> Station<N> {
@@ -380,7 +402,7 @@ impl<const N: usize> Trail<N> {
             }
         }
         let empty =
-            Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, dt_s: 0.05, motion: Motion::Hold, span_m: 0.0 };
+            Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, dt_s: 0.05, motion: Motion::Hold, span_m: 0.0, going_m: 0.0, going_sigma_m: 0.0 };
         Self {
             head: h,
             upper,
@@ -475,6 +497,7 @@ impl<const N: usize> Trail<N> {
                     moved_at: None,
                     steady_since: None,
                     last: rd.signed,
+                    follows: req.from_still,
                 });
                 forced = Some(rd.motion);
             }
@@ -561,8 +584,25 @@ impl<const N: usize> Trail<N> {
         }
         let rd = &rd;
         let turned = rd.motion == Motion::Turn && self.len > 0 && self.st[self.len - 1].motion != Motion::Turn;
+        // During a move of a set distance, once the head has set off, each link carries the
+        // way asked at the pace asked, its σ as large: the distance still comes from the field,
+        // its sign from the ask. Across the top of a level sonde the field is the same either
+        // side; left to pick, a fit had the head walk back the way it came, and the camera
+        // scenario's sweeps showed the side wrong 0.2–1.6 m off.
+        let going = match self.pending {
+            Some(p) if forced.is_none() && p.moved_at.is_some() && p.follows && self.len > 0 => {
+                let d = MOVE_PACE_M_S * (rd.t_s - self.st[self.len - 1].t0).max(0.0);
+                let sd = if p.req.own_pace { 2.0 * d } else { d } + MOVE_SIGMA_M;
+                match rd.motion {
+                    Motion::Along => (libm::copysignf(d, p.req.ahead_m), sd),
+                    Motion::Side => (libm::copysignf(d, p.req.left_m), sd),
+                    _ => (0.0, 0.0),
+                }
+            }
+            _ => (0.0, 0.0),
+        };
         let rd = &Reading { motion: forced.unwrap_or(rd.motion), ..*rd };
-        let new_station = self.add(rd, turned || forced.is_some());
+        let new_station = self.add(rd, turned || forced.is_some(), going);
         if new_station {
             if self.len == 1 {
                 self.seed_first();
@@ -597,6 +637,31 @@ impl<const N: usize> Trail<N> {
             self.reseed();
         }
         let place = self.place(rd.t_s, rd.group_delay_s);
+        // A person going another way than the one asked is not held to it: if the fit no
+        // longer explains the readings, the links of the move under way lose the way asked.
+        let place = match (self.pending, place) {
+            (Some(mut p), Some(q)) if !q.consistent && p.follows => {
+                p.follows = false;
+                self.pending = Some(p);
+                let mut held = false;
+                for st in self.st.iter_mut().take(self.len).skip(p.first) {
+                    held |= st.going_m != 0.0;
+                    st.going_m = 0.0;
+                    st.going_sigma_m = 0.0;
+                }
+                if held {
+                    for k in 0..HYPOTHESES {
+                        if self.hyp[k].live {
+                            self.iterate(k, ITERATIONS);
+                        }
+                    }
+                    self.place(rd.t_s, rd.group_delay_s)
+                } else {
+                    place
+                }
+            }
+            _ => place,
+        };
         // A person who went on, or came back, after the move asked for was not where the
         // distance puts them: if the fit no longer explains the readings with the distance
         // tied in, the move's links go back to what was asked on the way.
@@ -619,7 +684,7 @@ impl<const N: usize> Trail<N> {
     }
 
     /// Pool the readout into the last station or start a new one; true when new.
-    fn add(&mut self, rd: &Reading<N>, turned: bool) -> bool {
+    fn add(&mut self, rd: &Reading<N>, turned: bool, going: (f32, f32)) -> bool {
         let period = self.settings.period_s;
         let dt = if self.last_dt_s > 0.0 { self.last_dt_s } else { 0.05 };
         if self.len > 0 && !turned {
@@ -674,6 +739,8 @@ impl<const N: usize> Trail<N> {
             dt_s: dt,
             motion: rd.motion,
             span_m: 0.0,
+            going_m: going.0,
+            going_sigma_m: going.1,
         };
         self.len += 1;
         true
@@ -734,9 +801,14 @@ impl<const N: usize> Trail<N> {
         // The pooled station stands at the middle: half the move between the two joins
         // each of the links either side.
         m.motion = with_half_of(a.motion, c.motion);
+        m.going_m = a.going_m + 0.5 * c.going_m;
+        m.going_sigma_m = libm::sqrtf(a.going_sigma_m * a.going_sigma_m + 0.5 * c.going_sigma_m * c.going_sigma_m);
         self.st[i] = m;
         if i + 2 < self.len {
             self.st[i + 2].motion = with_half_of(self.st[i + 2].motion, c.motion);
+            let n = &mut self.st[i + 2];
+            n.going_m += 0.5 * c.going_m;
+            n.going_sigma_m = libm::sqrtf(n.going_sigma_m * n.going_sigma_m + 0.5 * c.going_sigma_m * c.going_sigma_m);
         }
         for o in self.hyp.iter_mut() {
             let (p, q) = (o.loc[i], o.loc[i + 1]);
@@ -786,7 +858,7 @@ impl<const N: usize> Trail<N> {
         let psi = libm::atan2f(by, bx);
         let kappa = libm::logf(total * h0 * h0 * h0);
         // Over the sonde, either way along the field, and off to the side.
-        let (c, s) = (libm::cosf(psi), libm::sinf(psi));
+        let (s, c) = crate::trigf::sin_cos(psi);
         let starts = [(0.0f32, 0.0f32), (2.0 * c, 2.0 * s), (-2.0 * c, -2.0 * s), (-2.0 * s, 2.0 * c)];
         for (k, (x, y)) in starts.iter().enumerate().take(HYPOTHESES) {
             let mut hyp = Hyp::DEAD;
@@ -917,9 +989,11 @@ impl<const N: usize> Trail<N> {
     /// The motion prior's plain Gaussian residual and Jacobians.
     fn prior_raw(&self, h: &Hyp, i: usize) -> ([f32; 3], M3, M3) {
         let s = &self.settings;
+        let g = self.st[i].going_m;
+        let step = if g != 0.0 { s.step_sigma_m.min(self.st[i].going_sigma_m) } else { s.step_sigma_m };
         let (sa, sl, spsi) = match self.st[i].motion {
-            Motion::Along => (s.step_sigma_m, s.drift_sigma_m, s.heading_sigma_rad),
-            Motion::Side => (s.drift_sigma_m, s.step_sigma_m, s.heading_sigma_rad),
+            Motion::Along => (step, s.drift_sigma_m, s.heading_sigma_rad),
+            Motion::Side => (s.drift_sigma_m, step, s.heading_sigma_rad),
             Motion::Hold => (s.drift_sigma_m, s.drift_sigma_m, s.heading_sigma_rad),
             Motion::Turn => (s.drift_sigma_m, s.drift_sigma_m, 1e3),
             Motion::Free => (s.step_sigma_m, s.step_sigma_m, FREE_HEADING_RAD),
@@ -927,12 +1001,14 @@ impl<const N: usize> Trail<N> {
         };
         let (ma, ml) = match self.st[i].motion {
             Motion::Moved { ahead_m, left_m, .. } => (ahead_m, left_m),
+            Motion::Along => (g, 0.0),
+            Motion::Side => (0.0, g),
             _ => (0.0, 0.0),
         };
         let (wa, wl, wp) = (1.0 / sa.max(1e-4), 1.0 / sl.max(1e-4), 1.0 / spsi.max(1e-4));
         let (p, c) = (h.loc[i - 1], h.loc[i]);
         let delta = wrap_pi(p[2] - c[2]);
-        let (sn, cs) = (libm::sinf(delta), libm::cosf(delta));
+        let (sn, cs) = crate::trigf::sin_cos(delta);
         let rx = cs * c[0] - sn * c[1];
         let ry = sn * c[0] + cs * c[1];
         // ∂R(δ)p/∂δ
@@ -1295,7 +1371,7 @@ impl<const N: usize> Trail<N> {
                 let t = self.st[i].t_mid() - self.st[last].t_mid();
                 // The station's sonde position in the last frame (turn between them is small).
                 let d = wrap_pi(h.loc[i][2] - l[2]);
-                let (sn, cs) = (libm::sinf(d), libm::cosf(d));
+                let (sn, cs) = crate::trigf::sin_cos(d);
                 let (x, y) = (cs * h.loc[i][0] - sn * h.loc[i][1], sn * h.loc[i][0] + cs * h.loc[i][1]);
                 st += t;
                 sx += x;
@@ -1316,7 +1392,7 @@ impl<const N: usize> Trail<N> {
         let mut span = 0.0f32;
         for i in 0..self.len {
             let d = wrap_pi(h.loc[i][2] - l[2]);
-            let (sn, cs) = (libm::sinf(d), libm::cosf(d));
+            let (sn, cs) = crate::trigf::sin_cos(d);
             let (x, y) = (cs * h.loc[i][0] - sn * h.loc[i][1], sn * h.loc[i][0] + cs * h.loc[i][1]);
             span = span.max(crate::powf::hypotf(x - l[0], y - l[1]));
         }
@@ -1507,7 +1583,7 @@ mod tests {
         let mut none = 0;
         for (i, &(x, y, hd)) in path.iter().enumerate() {
             // Sonde relative to the head in the head's frame.
-            let (s, c) = (libm::sinf(hd), libm::cosf(hd));
+            let (s, c) = crate::trigf::sin_cos(hd);
             let (ax, ay) = (-x * c - y * s, x * s - y * c);
             let th = [ax, ay, h, -hd, 0.0, k];
             let m = model(&head, &th);
