@@ -22,8 +22,8 @@
 
 /// π/2 in three parts: `P1 + P2 + P3` (Cephes `sinf.c`, `DP1..DP3` × 2).
 const P1: f32 = 1.570_312_5;
-const P2: f32 = 4.837_512_969_970_703e-4;
-const P3: f32 = 7.549_789_954_891_882e-8;
+const P2: f32 = 4.837_513e-4;
+const P3: f32 = 7.549_79e-8;
 
 /// Largest `|x|` reduced in `f32`.
 const F32_REDUCTION_MAX: f32 = 8192.0;

@@ -28,6 +28,11 @@
 //! within 2σ and 5 % of the truth. A start that has not ended after
 //! [`MAX_TIME_S`] counts as not located.
 //!
+//! Every readout on the way is scored against the truth where the head stands:
+//! "over" shown farther than that tolerance from the point, and a way (ahead or
+//! behind) or a side (left or right) shown while the sonde lies more than the
+//! tolerance the other way.
+//!
 //! Starts are drawn uniformly over the ground within the detection range
 //! ([`crate::range::detection_range_m`]) with a uniform random heading, and
 //! kept when the best coil's SNR there is at least 20 dB; every start has its
@@ -45,7 +50,7 @@ use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
 use undertone_dsp::locate::calibration::Calibration;
-use undertone_dsp::locate::guidance::{over_tolerance_m, Guidance, Hint};
+use undertone_dsp::locate::guidance::{over_tolerance_m, Across, Along, Guidance, Hint};
 use undertone_dsp::{Head, Readout, Receiver};
 
 /// Longest a start may take, s.
@@ -96,6 +101,14 @@ pub struct StartResult {
     pub over_shown: usize,
     /// Of those, farther than the tolerance from the point over the sonde.
     pub over_too_far: usize,
+    /// Readouts that showed the sonde ahead or behind on the way.
+    pub way_shown: usize,
+    /// Of those, the wrong way by more than the over tolerance.
+    pub way_wrong: usize,
+    /// Readouts that showed the sonde to the left or right on the way.
+    pub side_shown: usize,
+    /// Of those, the wrong side by more than the over tolerance.
+    pub side_wrong: usize,
     /// The operator's path, one point per 0.5 s (east, north), m.
     #[serde(skip)]
     pub path: Vec<(f64, f64)>,
@@ -140,6 +153,14 @@ pub struct LocateSummary {
     pub over_shown: usize,
     /// Of those, farther than the tolerance from the point over the sonde.
     pub over_too_far: usize,
+    /// Readouts that showed the sonde ahead or behind, every start.
+    pub way_shown: usize,
+    /// Of those, the wrong way by more than the over tolerance.
+    pub way_wrong: usize,
+    /// Readouts that showed the sonde to the left or right, every start.
+    pub side_shown: usize,
+    /// Of those, the wrong side by more than the over tolerance.
+    pub side_wrong: usize,
     /// The calibration made before the job, if the scenario asks for one.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::calibrate::Found>,
@@ -177,6 +198,10 @@ pub fn summarise(sc: &Scenario, results: &[StartResult]) -> Result<LocateSummary
         detection_range_m: mm(detection_range_m(sc)?),
         over_shown: results.iter().map(|r| r.over_shown).sum(),
         over_too_far: results.iter().map(|r| r.over_too_far).sum(),
+        way_shown: results.iter().map(|r| r.way_shown).sum(),
+        way_wrong: results.iter().map(|r| r.way_wrong).sum(),
+        side_shown: results.iter().map(|r| r.side_shown).sum(),
+        side_wrong: results.iter().map(|r| r.side_wrong).sum(),
         calibration: crate::calibrate::found(sc)?,
         caution: crate::report::CAUTION_LINE,
     })
@@ -252,69 +277,56 @@ fn one<const N: usize>(
     let mut depth_since: Option<f64> = None;
     let mut path = vec![(pose.x_m, pose.y_m)];
     let mut next_path_t = 0.5;
-    let (mut over_shown, mut over_too_far) = (0usize, 0usize);
-    let result = |over: (usize, usize),
-                  synth: &Synth,
-                  pose: &Pose,
-                  t: f64,
-                  depth: Option<(f64, f64)>,
-                  path: Vec<(f64, f64)>,
-                  failure: Option<String>| {
-        let truth = synth.truth_at(*pose, t);
-        let miss = truth.range_m;
-        let tol = over_tolerance_m(truth.depth_m as f32) as f64;
-        let err = depth.map(|(d, _)| 100.0 * (d - truth.depth_m) / truth.depth_m);
-        let depth_ok =
-            depth.map(|(d, s)| (d - truth.depth_m).abs() <= 2.0 * s && (d - truth.depth_m).abs() <= 0.05 * truth.depth_m).unwrap_or(false);
-        let located = failure.is_none() && miss <= tol && depth_ok;
-        let failure = failure.or_else(|| {
-            (!located).then(|| {
-                if miss > tol {
-                    format!("stopped {miss:.2} m from the point over the sonde")
-                } else {
-                    format!("depth off by {:.1} %", err.unwrap_or(f64::NAN))
-                }
-            })
-        });
-        StartResult {
-            start: index,
-            from: [start.x_m, start.y_m, start.heading_rad.to_degrees()],
-            located,
-            time_s: t,
-            stop: [pose.x_m, pose.y_m],
-            miss_m: miss,
-            tolerance_m: tol,
-            depth_m: depth.map(|d| d.0),
-            depth_sigma_m: depth.map(|d| d.1),
-            true_depth_m: truth.depth_m,
-            depth_error_pct: err,
-            failure,
-            over_shown: over.0,
-            over_too_far: over.1,
-            path,
-        }
-    };
+    let mut seen = Shown::default();
+    let result =
+        |seen: Shown, synth: &Synth, pose: &Pose, t: f64, depth: Option<(f64, f64)>, path: Vec<(f64, f64)>, failure: Option<String>| {
+            let truth = synth.truth_at(*pose, t);
+            let miss = truth.range_m;
+            let tol = over_tolerance_m(truth.depth_m as f32) as f64;
+            let err = depth.map(|(d, _)| 100.0 * (d - truth.depth_m) / truth.depth_m);
+            let depth_ok = depth
+                .map(|(d, s)| (d - truth.depth_m).abs() <= 2.0 * s && (d - truth.depth_m).abs() <= 0.05 * truth.depth_m)
+                .unwrap_or(false);
+            let located = failure.is_none() && miss <= tol && depth_ok;
+            let failure = failure.or_else(|| {
+                (!located).then(|| {
+                    if miss > tol {
+                        format!("stopped {miss:.2} m from the point over the sonde")
+                    } else {
+                        format!("depth off by {:.1} %", err.unwrap_or(f64::NAN))
+                    }
+                })
+            });
+            StartResult {
+                start: index,
+                from: [start.x_m, start.y_m, start.heading_rad.to_degrees()],
+                located,
+                time_s: t,
+                stop: [pose.x_m, pose.y_m],
+                miss_m: miss,
+                tolerance_m: tol,
+                depth_m: depth.map(|d| d.0),
+                depth_sigma_m: depth.map(|d| d.1),
+                true_depth_m: truth.depth_m,
+                depth_error_pct: err,
+                failure,
+                over_shown: seen.over,
+                over_too_far: seen.over_too_far,
+                way_shown: seen.way,
+                way_wrong: seen.way_wrong,
+                side_shown: seen.side,
+                side_wrong: seen.side_wrong,
+                path,
+            }
+        };
     while t < MAX_TIME_S {
         // The operator acts on the latest readout, then the next interval is synthesised.
         if let Some(r) = last {
-            if r.guidance.over() {
-                // Claimed for a head standing still: the pose now is where it stood.
-                let tr = synth.truth_at(pose, t);
-                over_shown += 1;
-                over_too_far += usize::from(tr.range_m > over_tolerance_m(tr.depth_m as f32) as f64);
-            }
+            seen.count(&r.guidance, &synth.truth_at(pose, t));
             if let Some(d) = r.depth.filter(|_| r.guidance.hint == Hint::HoldStill) {
                 let since = *depth_since.get_or_insert(t);
                 if t - since >= READ_AFTER_S {
-                    return Ok(result(
-                        (over_shown, over_too_far),
-                        &synth,
-                        &pose,
-                        t,
-                        Some((d.depth.depth_m as f64, d.depth.sigma_m as f64)),
-                        path,
-                        None,
-                    ));
+                    return Ok(result(seen, &synth, &pose, t, Some((d.depth.depth_m as f64, d.depth.sigma_m as f64)), path, None));
                 }
             } else {
                 depth_since = None;
@@ -368,7 +380,50 @@ fn one<const N: usize>(
             next_path_t += 0.5;
         }
     }
-    Ok(result((over_shown, over_too_far), &synth, &pose, t, None, path, Some(format!("no depth read within {MAX_TIME_S:.0} s"))))
+    Ok(result(seen, &synth, &pose, t, None, path, Some(format!("no depth read within {MAX_TIME_S:.0} s"))))
+}
+
+/// What the receiver showed on the way, against the truth.
+#[derive(Clone, Copy, Debug, Default)]
+struct Shown {
+    over: usize,
+    over_too_far: usize,
+    way: usize,
+    way_wrong: usize,
+    side: usize,
+    side_wrong: usize,
+}
+
+impl Shown {
+    /// Count one readout's answers; `tr` is the truth where the head stands. "Over" is claimed
+    /// for a head standing still: the pose now is where it stood. A way or side is wrong when
+    /// the sonde is more than the over tolerance the other way.
+    fn count(&mut self, g: &Guidance, tr: &crate::synth::Truth) {
+        let tol = over_tolerance_m(tr.depth_m as f32) as f64;
+        if g.over() {
+            self.over += 1;
+            self.over_too_far += usize::from(tr.range_m > tol);
+        }
+        // How far the sonde lies the way shown (ahead or left positive), if a way is shown.
+        let way = match g.along {
+            Along::Ahead => Some(tr.ahead_m),
+            Along::Behind => Some(-tr.ahead_m),
+            _ => None,
+        };
+        let side = match g.across {
+            Across::Left => Some(tr.left_m),
+            Across::Right => Some(-tr.left_m),
+            _ => None,
+        };
+        if let Some(d) = way {
+            self.way += 1;
+            self.way_wrong += usize::from(d < -tol);
+        }
+        if let Some(d) = side {
+            self.side += 1;
+            self.side_wrong += usize::from(d < -tol);
+        }
+    }
 }
 
 /// The operator's next act from the hint shown; `done` is the last move made.
@@ -526,6 +581,12 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
             out,
             "'over' shown on {} readouts on the way, {} of them farther than the over tolerance",
             summary.over_shown, summary.over_too_far
+        )
+        .map_err(io)?;
+        writeln!(
+            out,
+            "ahead/behind shown on {} readouts, {} the wrong way by more than the over tolerance; left/right on {}, {} the wrong side",
+            summary.way_shown, summary.way_wrong, summary.side_shown, summary.side_wrong
         )
         .map_err(io)?;
         let fails: Vec<&StartResult> = results.iter().filter(|r| !r.located).collect();

@@ -401,8 +401,19 @@ impl<const N: usize> Trail<N> {
                 upper[*i as usize] = true;
             }
         }
-        let empty =
-            Station { sum: [0.0; N], var: [0.0; N], n: 0, t0: 0.0, t1: 0.0, corr_s: 1.0, dt_s: 0.05, motion: Motion::Hold, span_m: 0.0, going_m: 0.0, going_sigma_m: 0.0 };
+        let empty = Station {
+            sum: [0.0; N],
+            var: [0.0; N],
+            n: 0,
+            t0: 0.0,
+            t1: 0.0,
+            corr_s: 1.0,
+            dt_s: 0.05,
+            motion: Motion::Hold,
+            span_m: 0.0,
+            going_m: 0.0,
+            going_sigma_m: 0.0,
+        };
         Self {
             head: h,
             upper,
@@ -1625,7 +1636,8 @@ mod tests {
             let (ax, ay) = (-x, -y);
             let m = model(&head, &[ax, ay, h, 0.0, 0.0, k]);
             let a = core::array::from_fn(|j| m[j] + sigma * g.normal() as f32);
-            let rd = Reading { t_s: 0.05 * i as f32, signed: a, sigma: [sigma; 4], motion, noise_corr_s: 0.05, group_delay_s: 0.0, request };
+            let rd =
+                Reading { t_s: 0.05 * i as f32, signed: a, sigma: [sigma; 4], motion, noise_corr_s: 0.05, group_delay_s: 0.0, request };
             out.push((ax, ay, tr.update(&rd).filter(|p| p.consistent)));
         }
         out
