@@ -215,13 +215,13 @@ pub fn fit_from<const N: usize>(
             best = Some((th, chi));
         }
     }
+    let (sy0, cy0) = crate::trigf::sin_cos(yaw0);
     let starts: &[(F, F)] = if best.is_some() { &[] } else { &[(1.0, 0.0), (0.0, 0.0), (-1.0, 0.0), (1.0, 1.0), (0.5, 0.0), (-0.5, 0.0)] };
     for &(kx, flip) in starts {
         // Offsets along the bearing: the ratio's estimate, none, its mirror, half the depth either way.
         let dx = if kx.abs() == 1.0 { kx * ahead } else { kx * h0 };
         let dyaw = flip * core::f32::consts::PI;
-        let mut th =
-            [dx * crate::trigf::cosf(yaw0), dx * crate::trigf::sinf(yaw0), h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
+        let mut th = [dx * cy0, dx * sy0, h0, yaw0 + dyaw, 0.0, if dyaw == 0.0 { k0 } else { -k0 }];
         if let Some(k) = known_k {
             th[5] = if th[5] < 0.0 { -(k as F).abs() } else { (k as F).abs() };
         }

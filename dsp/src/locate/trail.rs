@@ -309,6 +309,12 @@ struct Station<const N: usize> {
 }
 
 impl<const N: usize> Station<N> {
+    /// Take half of a pooled neighbour's move the way asked (its σ in quadrature).
+    fn take_half_going(&mut self, c: &Station<N>) {
+        self.going_m += 0.5 * c.going_m;
+        self.going_sigma_m = libm::sqrtf(self.going_sigma_m * self.going_sigma_m + 0.5 * c.going_sigma_m * c.going_sigma_m);
+    }
+
     fn mean(&self) -> [f32; N] {
         let k = 1.0 / self.n.max(1) as f32;
         self.sum.map(|s| s * k)
@@ -812,14 +818,11 @@ impl<const N: usize> Trail<N> {
         // The pooled station stands at the middle: half the move between the two joins
         // each of the links either side.
         m.motion = with_half_of(a.motion, c.motion);
-        m.going_m = a.going_m + 0.5 * c.going_m;
-        m.going_sigma_m = libm::sqrtf(a.going_sigma_m * a.going_sigma_m + 0.5 * c.going_sigma_m * c.going_sigma_m);
+        m.take_half_going(&c);
         self.st[i] = m;
         if i + 2 < self.len {
             self.st[i + 2].motion = with_half_of(self.st[i + 2].motion, c.motion);
-            let n = &mut self.st[i + 2];
-            n.going_m += 0.5 * c.going_m;
-            n.going_sigma_m = libm::sqrtf(n.going_sigma_m * n.going_sigma_m + 0.5 * c.going_sigma_m * c.going_sigma_m);
+            self.st[i + 2].take_half_going(&c);
         }
         for o in self.hyp.iter_mut() {
             let (p, q) = (o.loc[i], o.loc[i + 1]);
@@ -1581,66 +1584,40 @@ mod tests {
         (out, none)
     }
 
-    /// [`walk_case`], with the trail as it ends.
+    /// [`walk_case`], with the trail as it ends: a walk along the handle, nothing asked.
     fn walk_trail(path: &[(f32, f32, f32)], snr_db: f32, seed: u64) -> (Trail<4>, Vec<(f32, f32, Place)>, usize) {
-        let head = Head::reference4();
-        let mut tr = Trail::new(&head, TrailSettings::default());
-        let mut g = Gauss(seed);
-        let h = 1.5f32;
-        let k = 1.0f32;
-        let peak = k / (h * h * h);
-        let sigma = peak * libm::powf(10.0, -snr_db / 20.0);
-        let mut out = Vec::new();
-        let mut none = 0;
-        for (i, &(x, y, hd)) in path.iter().enumerate() {
-            // Sonde relative to the head in the head's frame.
-            let (s, c) = crate::trigf::sin_cos(hd);
-            let (ax, ay) = (-x * c - y * s, x * s - y * c);
-            let th = [ax, ay, h, -hd, 0.0, k];
-            let m = model(&head, &th);
-            let mut a = [0.0f32; 4];
-            for j in 0..4 {
-                a[j] = m[j] + sigma * g.normal() as f32;
-            }
-            let rd = Reading {
-                t_s: 0.05 * i as f32,
-                signed: a,
-                sigma: [sigma; 4],
-                motion: Motion::Along,
-                noise_corr_s: 0.05,
-                group_delay_s: 0.0,
-                request: None,
-            };
-            match tr.update(&rd) {
-                Some(p) if p.consistent => out.push((ax, ay, p)),
-                _ => none += 1,
-            }
-        }
+        let steps: Vec<Step> = path.iter().map(|&(x, y, hd)| (x, y, hd, Motion::Along, None)).collect();
+        let (tr, all) = run_trail(&steps, snr_db, seed);
+        let out: Vec<(f32, f32, Place)> = all.iter().filter_map(|&(ax, ay, p)| p.map(|p| (ax, ay, p))).collect();
+        let none = all.len() - out.len();
         (tr, out, none)
     }
 
-    /// One readout of [`sweep_trail`]: the head at (x, y) heading 0 (along the sonde axis), what
-    /// the receiver asked, and the move of a set distance under way, if any.
-    type Step = (f32, f32, Motion, Option<MoveRequest>);
+    /// One readout of [`run_trail`]: the head at (x, y) heading `hd` (rad), what the receiver
+    /// asked, and the move of a set distance under way, if any.
+    type Step = (f32, f32, f32, Motion, Option<MoveRequest>);
 
-    /// Readings of a level dipole 1.5 m below at the origin, its axis along world x, the
-    /// head heading along it: the trail's answers after every readout, with the truth.
-    fn sweep_trail(path: &[Step], snr_db: f32, seed: u64) -> Vec<(f32, f32, Option<Place>)> {
+    /// Readings of a level dipole 1.5 m below at the origin, its axis along world x: the trail
+    /// as it ends and its consistent answer after every readout, with the sonde's true place
+    /// relative to the head.
+    fn run_trail(path: &[Step], snr_db: f32, seed: u64) -> (Trail<4>, Vec<(f32, f32, Option<Place>)>) {
         let head = Head::reference4();
         let mut tr = Trail::new(&head, TrailSettings::default());
         let mut g = Gauss(seed);
         let (h, k) = (1.5f32, 1.0f32);
         let sigma = k / (h * h * h) * libm::powf(10.0, -snr_db / 20.0);
         let mut out = Vec::new();
-        for (i, &(x, y, motion, request)) in path.iter().enumerate() {
-            let (ax, ay) = (-x, -y);
-            let m = model(&head, &[ax, ay, h, 0.0, 0.0, k]);
+        for (i, &(x, y, hd, motion, request)) in path.iter().enumerate() {
+            // Sonde relative to the head in the head's frame.
+            let (s, c) = crate::trigf::sin_cos(hd);
+            let (ax, ay) = (-x * c - y * s, x * s - y * c);
+            let m = model(&head, &[ax, ay, h, -hd, 0.0, k]);
             let a = core::array::from_fn(|j| m[j] + sigma * g.normal() as f32);
             let rd =
                 Reading { t_s: 0.05 * i as f32, signed: a, sigma: [sigma; 4], motion, noise_corr_s: 0.05, group_delay_s: 0.0, request };
             out.push((ax, ay, tr.update(&rd).filter(|p| p.consistent)));
         }
-        out
+        (tr, out)
     }
 
     #[test]
@@ -1651,14 +1628,14 @@ mod tests {
         // side), and stands. Taken freely, the readings fit the head walking back the way it
         // came just as well; the way asked decides.
         let req = MoveRequest { id: 1, ahead_m: 0.0, left_m: -0.8, from_still: true, own_pace: false };
-        let mut path: Vec<Step> = (0..167).map(|i| (-2.5 + 0.015 * i as f32, 0.4, Motion::Along, None)).collect();
-        path.extend((0..20).map(|_| (0.0, 0.4, Motion::Hold, None)));
-        path.extend((0..6).map(|_| (0.0, 0.4, Motion::Side, Some(req))));
-        path.extend((0..80).map(|i| (0.0, 0.4 - 0.01 * (i + 1) as f32, Motion::Side, Some(req))));
-        path.extend((0..40).map(|_| (0.0, -0.4, Motion::Hold, Some(req))));
+        let mut path: Vec<Step> = (0..167).map(|i| (-2.5 + 0.015 * i as f32, 0.4, 0.0, Motion::Along, None)).collect();
+        path.extend((0..20).map(|_| (0.0, 0.4, 0.0, Motion::Hold, None)));
+        path.extend((0..6).map(|_| (0.0, 0.4, 0.0, Motion::Side, Some(req))));
+        path.extend((0..80).map(|i| (0.0, 0.4 - 0.01 * (i + 1) as f32, 0.0, Motion::Side, Some(req))));
+        path.extend((0..40).map(|_| (0.0, -0.4, 0.0, Motion::Hold, Some(req))));
         let (mut shown, mut wrong, mut within) = (0, 0, 0);
         for seed in 1..=8u64 {
-            let out = sweep_trail(&path, 50.0, seed);
+            let (_, out) = run_trail(&path, 50.0, seed);
             // From the middle of the sweep on, the head beyond the axis: the sonde to its left.
             for &(_, ay, p) in out.iter().skip(193 + 45) {
                 let Some(p) = p else { continue };
