@@ -97,18 +97,9 @@ pub struct StartResult {
     pub depth_error_pct: Option<f64>,
     /// Why the start failed (None when located).
     pub failure: Option<String>,
-    /// Readouts that showed "over" on the way.
-    pub over_shown: usize,
-    /// Of those, farther than the tolerance from the point over the sonde.
-    pub over_too_far: usize,
-    /// Readouts that showed the sonde ahead or behind on the way.
-    pub way_shown: usize,
-    /// Of those, the wrong way by more than the over tolerance.
-    pub way_wrong: usize,
-    /// Readouts that showed the sonde to the left or right on the way.
-    pub side_shown: usize,
-    /// Of those, the wrong side by more than the over tolerance.
-    pub side_wrong: usize,
+    /// What was shown on the way, against the truth.
+    #[serde(flatten)]
+    pub shown: Shown,
     /// The operator's path, one point per 0.5 s (east, north), m.
     #[serde(skip)]
     pub path: Vec<(f64, f64)>,
@@ -149,18 +140,9 @@ pub struct LocateSummary {
     pub median_time_s: Option<f64>,
     /// The detection range starts were drawn within, m.
     pub detection_range_m: f64,
-    /// Readouts that showed "over", every start.
-    pub over_shown: usize,
-    /// Of those, farther than the tolerance from the point over the sonde.
-    pub over_too_far: usize,
-    /// Readouts that showed the sonde ahead or behind, every start.
-    pub way_shown: usize,
-    /// Of those, the wrong way by more than the over tolerance.
-    pub way_wrong: usize,
-    /// Readouts that showed the sonde to the left or right, every start.
-    pub side_shown: usize,
-    /// Of those, the wrong side by more than the over tolerance.
-    pub side_wrong: usize,
+    /// What was shown on the way, every start.
+    #[serde(flatten)]
+    pub shown: Shown,
     /// The calibration made before the job, if the scenario asks for one.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::calibrate::Found>,
@@ -196,12 +178,7 @@ pub fn summarise(sc: &Scenario, results: &[StartResult]) -> Result<LocateSummary
         located: results.iter().filter(|r| r.located).count(),
         median_time_s: crate::stats::median(&mut times).map(mm),
         detection_range_m: mm(detection_range_m(sc)?),
-        over_shown: results.iter().map(|r| r.over_shown).sum(),
-        over_too_far: results.iter().map(|r| r.over_too_far).sum(),
-        way_shown: results.iter().map(|r| r.way_shown).sum(),
-        way_wrong: results.iter().map(|r| r.way_wrong).sum(),
-        side_shown: results.iter().map(|r| r.side_shown).sum(),
-        side_wrong: results.iter().map(|r| r.side_wrong).sum(),
+        shown: results.iter().fold(Shown::default(), |a, r| a.plus(&r.shown)),
         calibration: crate::calibrate::found(sc)?,
         caution: crate::report::CAUTION_LINE,
     })
@@ -310,12 +287,7 @@ fn one<const N: usize>(
                 true_depth_m: truth.depth_m,
                 depth_error_pct: err,
                 failure,
-                over_shown: seen.over,
-                over_too_far: seen.over_too_far,
-                way_shown: seen.way,
-                way_wrong: seen.way_wrong,
-                side_shown: seen.side,
-                side_wrong: seen.side_wrong,
+                shown: seen,
                 path,
             }
         };
@@ -383,25 +355,44 @@ fn one<const N: usize>(
     Ok(result(seen, &synth, &pose, t, None, path, Some(format!("no depth read within {MAX_TIME_S:.0} s"))))
 }
 
-/// What the receiver showed on the way, against the truth.
-#[derive(Clone, Copy, Debug, Default)]
-struct Shown {
-    over: usize,
-    over_too_far: usize,
-    way: usize,
-    way_wrong: usize,
-    side: usize,
-    side_wrong: usize,
+/// What the receiver showed on the way, against the truth: readouts that showed "over", a
+/// way (ahead or behind) and a side (left or right), and of those the ones that were wrong.
+#[derive(Clone, Copy, Debug, Default, Serialize, PartialEq)]
+pub struct Shown {
+    /// Readouts that showed "over".
+    pub over_shown: usize,
+    /// Of those, farther than the tolerance from the point over the sonde.
+    pub over_too_far: usize,
+    /// Readouts that showed the sonde ahead or behind.
+    pub way_shown: usize,
+    /// Of those, the wrong way by more than the over tolerance.
+    pub way_wrong: usize,
+    /// Readouts that showed the sonde to the left or right.
+    pub side_shown: usize,
+    /// Of those, the wrong side by more than the over tolerance.
+    pub side_wrong: usize,
 }
 
 impl Shown {
+    /// The counts of two runs together.
+    fn plus(&self, o: &Shown) -> Shown {
+        Shown {
+            over_shown: self.over_shown + o.over_shown,
+            over_too_far: self.over_too_far + o.over_too_far,
+            way_shown: self.way_shown + o.way_shown,
+            way_wrong: self.way_wrong + o.way_wrong,
+            side_shown: self.side_shown + o.side_shown,
+            side_wrong: self.side_wrong + o.side_wrong,
+        }
+    }
+
     /// Count one readout's answers; `tr` is the truth where the head stands. "Over" is claimed
     /// for a head standing still: the pose now is where it stood. A way or side is wrong when
     /// the sonde is more than the over tolerance the other way.
     fn count(&mut self, g: &Guidance, tr: &crate::synth::Truth) {
         let tol = over_tolerance_m(tr.depth_m as f32) as f64;
         if g.over() {
-            self.over += 1;
+            self.over_shown += 1;
             self.over_too_far += usize::from(tr.range_m > tol);
         }
         // How far the sonde lies the way shown (ahead or left positive), if a way is shown.
@@ -416,11 +407,11 @@ impl Shown {
             _ => None,
         };
         if let Some(d) = way {
-            self.way += 1;
+            self.way_shown += 1;
             self.way_wrong += usize::from(d < -tol);
         }
         if let Some(d) = side {
-            self.side += 1;
+            self.side_shown += 1;
             self.side_wrong += usize::from(d < -tol);
         }
     }
@@ -580,13 +571,13 @@ pub fn command(sc: &Scenario, starts: usize, seed: u64, json: bool, out_dir: &st
         writeln!(
             out,
             "'over' shown on {} readouts on the way, {} of them farther than the over tolerance",
-            summary.over_shown, summary.over_too_far
+            summary.shown.over_shown, summary.shown.over_too_far
         )
         .map_err(io)?;
         writeln!(
             out,
             "ahead/behind shown on {} readouts, {} the wrong way by more than the over tolerance; left/right on {}, {} the wrong side",
-            summary.way_shown, summary.way_wrong, summary.side_shown, summary.side_wrong
+            summary.shown.way_shown, summary.shown.way_wrong, summary.shown.side_shown, summary.shown.side_wrong
         )
         .map_err(io)?;
         let fails: Vec<&StartResult> = results.iter().filter(|r| !r.located).collect();

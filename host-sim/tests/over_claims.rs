@@ -13,8 +13,8 @@ fn assert_over_never_too_far(file: &str, seed: u64, starts: &[usize]) {
     let sc = Scenario::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join(file)).unwrap();
     for &start in starts {
         let r = trace(&sc, start, seed, &mut std::io::sink()).unwrap();
-        assert_eq!(r.over_too_far, 0, "start {start}: over shown {} times beyond the tolerance", r.over_too_far);
-        assert!(r.over_shown > 0, "start {start}: over never shown");
+        assert_eq!(r.shown.over_too_far, 0, "start {start}: over shown {} times beyond the tolerance", r.shown.over_too_far);
+        assert!(r.shown.over_shown > 0, "start {start}: over never shown");
     }
 }
 

@@ -15,9 +15,9 @@ fn camera_sweeps_across_the_top_show_the_side_right() {
     // than the over tolerance (0.15 m) on the wrong side, the fit 0.2–1.6 m on the mirror side.
     for start in [0, 2] {
         let r = trace(&sc, start, 7, &mut std::io::sink()).unwrap();
-        assert!(r.side_shown > 50, "start {start}: side shown on {} readouts", r.side_shown);
-        assert_eq!(r.side_wrong, 0, "start {start}: side wrong on {} of {} readouts", r.side_wrong, r.side_shown);
-        assert_eq!(r.way_wrong, 0, "start {start}: way wrong on {} of {} readouts", r.way_wrong, r.way_shown);
+        assert!(r.shown.side_shown > 50, "start {start}: side shown on {} readouts", r.shown.side_shown);
+        assert_eq!(r.shown.side_wrong, 0, "start {start}: side wrong on {} of {} readouts", r.shown.side_wrong, r.shown.side_shown);
+        assert_eq!(r.shown.way_wrong, 0, "start {start}: way wrong on {} of {} readouts", r.shown.way_wrong, r.shown.way_shown);
         assert!(r.located, "start {start}: {:?}", r.failure);
     }
 }
