@@ -263,6 +263,10 @@ pub struct Locator<const N: usize> {
     depth_lag_m: f32,
     /// The total field at the lower coils followed with a lag of [`STEADY_TAU_S`] (NaN: none yet).
     total_lag_t: f32,
+    /// The size of the vertical field at the lower coils followed likewise (NaN: none yet).
+    vertical_lag_t: f32,
+    /// Seconds the lateral side stays withheld after the fits last could not tell it.
+    side_doubt_s: f32,
 }
 
 /// `x` followed with a lag of `tau_s` (first-order low pass over `dt_s`); a lagged value
@@ -278,6 +282,9 @@ fn follow(lag: f32, x: f32, dt_s: f32, tau_s: f32) -> f32 {
 /// Time constant of the steady-field check, s, and the relative change it allows.
 const STEADY_TAU_S: f32 = 0.2;
 const STEADY_REL: f32 = 0.01;
+/// Change of the total or vertical field at the lower coils, relative to the total, beyond
+/// which a head asked to turn on the spot is taken to be walking on.
+const WALK_ON_REL: f32 = 0.05;
 
 /// σ within which "over" is kept while the head stays still (it is claimed at 2σ).
 const HOLD_SIGMAS: f32 = 1.0;
@@ -332,6 +339,8 @@ impl<const N: usize> Locator<N> {
             over_held: false,
             depth_lag_m: f32::NAN,
             total_lag_t: f32::NAN,
+            vertical_lag_t: f32::NAN,
+            side_doubt_s: 0.0,
         })
     }
 
@@ -366,6 +375,7 @@ impl<const N: usize> Locator<N> {
         self.last_depth_m = None;
         self.move_asked_s = f64::NEG_INFINITY;
         self.depth_lag_m = f32::NAN;
+        self.side_doubt_s = 0.0;
     }
 
     /// Step 1: signed field per coil, the upper coils' calibrated gain applied.
@@ -414,6 +424,23 @@ impl<const N: usize> Locator<N> {
                 Hint::WalkAhead | Hint::WalkBack | Hint::WalkAlong | Hint::WalkOtherWay | Hint::SweepAlong => Motion::Along,
             };
             let mut motion = motion_of(self.last_hint);
+            // A turn on the spot leaves the total and the vertical field at the lower coils
+            // as they were. Where they change, the person asked to turn walks on (as a
+            // scripted walker does, or someone who has not looked at the screen), and a
+            // person walking on goes the way they face: the trail is told so. With the turn's
+            // free heading, the camera walk's fit explained a walk past a sonde 1.1 m down as
+            // a turn over one 0.15 m down, and showed the way wrong. (A head that moves while
+            // asked to stand makes a station every readout, whose links are cut free when
+            // broken: taken as a walk along instead, at a station per period, the board's
+            // walk in to a sonde showed its first direction only as it passed the point.)
+            let (lt, lv) = (self.total_lag_t, self.vertical_lag_t);
+            let allow = 4.0 * sig_lo + WALK_ON_REL * lt;
+            let walks_on = lt.is_finite()
+                && lv.is_finite()
+                && (libm::fabsf(field.total - lt) > allow || libm::fabsf(libm::fabsf(field.lower[2]) - lv) > allow);
+            if motion == Motion::Turn && walks_on && !self.trail.moving() {
+                motion = Motion::Along;
+            }
             if motion == Motion::Hold && self.trail.moving() {
                 // "Hold still" shows (over the sonde) while the move asked for is still under
                 // way: a person finishes the step they are taking. Until the readouts are
@@ -451,6 +478,8 @@ impl<const N: usize> Locator<N> {
         let lag = self.total_lag_t;
         let steady = !lag.is_finite() || libm::fabsf(field.total - lag) <= (4.0 * sig_lo).max(STEADY_REL * lag);
         self.total_lag_t = if present { follow(lag, field.total, dt, STEADY_TAU_S) } else { field.total };
+        let vz = libm::fabsf(field.lower[2]);
+        self.vertical_lag_t = if present { follow(self.vertical_lag_t, vz, dt, STEADY_TAU_S) } else { vz };
         // Nor is a head that set off on a move of a set distance across the axis, until the
         // move should be done at the pace asked: across the top of a level sonde the field
         // changes only at second order, and mid-sweep "over" was shown to a person still
@@ -473,6 +502,12 @@ impl<const N: usize> Locator<N> {
         // dropped as the person moves on); a poor one-station fit flags the field.
         let raw_place = place;
         let place = place.filter(|p| p.consistent);
+        // A side the fits could not tell a moment ago (a rival on the other side within
+        // AMBIGUITY_CHI2) stays withheld for SIDE_DOUBT_S: straight across the top of a level
+        // sonde the two sides trade places as the best fit from readout to readout, and the
+        // demo's walk across showed 45 of 110 sides wrong, each with a σ of 0.01–0.03 m.
+        // ("Centred" is still claimed: both sides are then within the tolerance.)
+        self.side_doubt_s = if place.is_some_and(|p| p.ambiguous_left) { SIDE_DOUBT_S } else { (self.side_doubt_s - dt).max(0.0) };
         // A fit that has not explained the readings for a while is lost: start afresh.
         match raw_place {
             Some(p) if !p.consistent => self.lost_for_s += dt,
@@ -837,6 +872,12 @@ impl<const N: usize> Locator<N> {
             Across::Unsure
         } else if within_l {
             Across::Centred
+        } else if self.side_doubt_s > 0.0 || p.free_links > 0 {
+            // Withheld too while the person goes where they were not asked: their steps are
+            // then free either way, and straight across the top of a level sonde either way
+            // fits (the demo's walk sideways across it, asked to walk along, showed the side
+            // 1.1 m wrong with a σ of 0.08 m and no rival within Δχ² 70).
+            Across::Unsure
         } else if l - 2.0 * sl > 0.0 {
             Across::Left
         } else if l + 2.0 * sl < 0.0 {
@@ -851,7 +892,8 @@ impl<const N: usize> Locator<N> {
         if p.ambiguous_ahead {
             g.ahead = None;
         }
-        if p.ambiguous_left {
+        let side_doubt = g.across == Across::Unsure && self.side_doubt_s > 0.0;
+        if p.ambiguous_left || (g.across == Across::Unsure && (side_doubt || p.free_links > 0)) {
             g.left = None;
         }
         // The order of moves: a known lateral offset first (it is read best away from the
@@ -922,7 +964,7 @@ impl<const N: usize> Locator<N> {
                 } else {
                     Withheld::NeedsMotion
                 }
-            } else if p.ambiguous_left {
+            } else if p.ambiguous_left || side_doubt {
                 Withheld::Ambiguous
             } else {
                 Withheld::LateralUnknown
@@ -1116,6 +1158,8 @@ pub const OVER_MARGIN: f32 = 0.6;
 pub const OVER_SETTLE_S: f32 = 0.5;
 /// A trail fit that has not explained the readings this long is dropped, s.
 pub const LOST_S: f32 = 2.0;
+/// How long a side the fits could not tell stays withheld, s.
+pub const SIDE_DOUBT_S: f32 = 1.0;
 /// "Over" only from a fit whose depth's σ is below this share of the depth.
 pub const OVER_DEPTH_REL: f32 = 0.05;
 /// Stations a fit needs before its directions are acted on.
