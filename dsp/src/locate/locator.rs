@@ -505,7 +505,7 @@ impl<const N: usize> Locator<N> {
         // A side the fits could not tell a moment ago (a rival on the other side within
         // AMBIGUITY_CHI2) stays withheld for SIDE_DOUBT_S: straight across the top of a level
         // sonde the two sides trade places as the best fit from readout to readout, and the
-        // demo's walk across showed 45 of 110 sides wrong, each with a σ of 0.01–0.03 m.
+        // demo's walk across showed 42 of 93 sides wrong, each with a σ of 0.01–0.03 m.
         // ("Centred" is still claimed: both sides are then within the tolerance.)
         self.side_doubt_s = if place.is_some_and(|p| p.ambiguous_left) { SIDE_DOUBT_S } else { (self.side_doubt_s - dt).max(0.0) };
         // A fit that has not explained the readings for a while is lost: start afresh.
