@@ -868,11 +868,14 @@ impl<const N: usize> Locator<N> {
         } else {
             Along::Unsure
         };
+        // A side the fits could not tell a moment ago, or steps the person took unasked.
+        let side_doubt = self.side_doubt_s > 0.0;
+        let side_held = side_doubt || p.free_links > 0;
         g.across = if p.ambiguous_left || !sl.is_finite() {
             Across::Unsure
         } else if within_l {
             Across::Centred
-        } else if self.side_doubt_s > 0.0 || p.free_links > 0 {
+        } else if side_held {
             // Withheld too while the person goes where they were not asked: their steps are
             // then free either way, and straight across the top of a level sonde either way
             // fits (the demo's walk sideways across it, asked to walk along, showed the side
@@ -892,8 +895,7 @@ impl<const N: usize> Locator<N> {
         if p.ambiguous_ahead {
             g.ahead = None;
         }
-        let side_doubt = g.across == Across::Unsure && self.side_doubt_s > 0.0;
-        if p.ambiguous_left || (g.across == Across::Unsure && (side_doubt || p.free_links > 0)) {
+        if p.ambiguous_left || (g.across == Across::Unsure && side_held) {
             g.left = None;
         }
         // The order of moves: a known lateral offset first (it is read best away from the

@@ -966,7 +966,7 @@ impl<const N: usize> Trail<N> {
             if self.st[i].blurred {
                 continue;
             }
-            let c: f32 = self.terms(&h, i).r.iter().map(|r| r * r).sum();
+            let c = self.readings_chi2(&h, i);
             if worst.is_none_or(|(_, w)| c > w) {
                 worst = Some((i, c));
             }
@@ -1108,13 +1108,17 @@ impl<const N: usize> Trail<N> {
         ([0.0, h.glob[IA] * wa, 0.0, h.glob[IG] * wg], [0.0, wa, 0.0, wg])
     }
 
+    /// χ² of station `i`'s readings under fit `h`.
+    fn readings_chi2(&self, h: &Hyp, i: usize) -> f32 {
+        self.terms(h, i).r.iter().map(|r| r * r).sum()
+    }
+
     /// Cost (χ² of readings + priors) and the readings' χ² of fit `h`.
     fn cost(&self, h: &Hyp) -> (f32, f32) {
         let mut chi2 = 0.0;
         let mut prior = 0.0;
         for i in 0..self.len {
-            let t = self.terms(h, i);
-            chi2 += t.r.iter().map(|r| r * r).sum::<f32>();
+            chi2 += self.readings_chi2(h, i);
             if i > 0 {
                 prior += self.prior_terms(h, i).3;
             }
